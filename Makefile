@@ -1,0 +1,23 @@
+# Two commands for a fresh machine: `make demo` and `make test`.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+
+.PHONY: demo test bench clean
+
+$(BIN)/.installed: pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --disable-pip-version-check -e '.[test]'
+	touch $@
+
+demo: $(BIN)/.installed
+	$(BIN)/riskcalc hazard scenarios/amberlow_levee/ensemble_lp3.csv --family lp3 --unit m3s --out out/demo-hazard --overwrite
+
+test: $(BIN)/.installed
+	$(BIN)/python -m pytest -q
+
+bench: $(BIN)/.installed
+	$(BIN)/python benchmarks/bench_hazard.py
+
+clean:
+	rm -rf $(VENV) out

@@ -1,0 +1,51 @@
+"""The steps a user runs, as plain functions: read inputs, compute, write outputs.
+
+The CLI calls these and nothing else; a notebook can call them too.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from .errors import InputError
+from .hazard import STANDARD_AEPS, hazard_curves, read_ensemble
+from .io import atomic_output_dir, write_csv
+from .plots import plot_hazard
+from .tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
+
+__all__ = ["hazard_step"]
+
+
+def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, level=0.9, aep_max=0.999,
+                aep_min=1e-7, n_grid=2000, overwrite=False, figure=True, title=None):
+    """Read an ensemble, compute its summary curves and write the hazard tables and figure.
+
+    Returns
+    -------
+    curves : HazardCurves
+    summary : pandas.DataFrame
+        Mode, median and predictive quantities at the standard AEPs.
+    """
+    for name, v in (("aep_max", aep_max), ("aep_min", aep_min)):
+        if not 0 < v < 1:
+            raise InputError(f"{name} = {v} must be strictly between 0 and 1", key=name)
+    if not aep_min < aep_max:
+        raise InputError(f"aep_min = {aep_min} must be below aep_max = {aep_max}", key="aep_min")
+    if not 0 < level < 1:
+        raise InputError(f"credible level {level} must be strictly between 0 and 1", key="level")
+    if n_grid < 10:
+        raise InputError(f"grid size {n_grid} is too small; expected at least 10 points", key="grid")
+    ens = read_ensemble(ensemble_path, family, quantity=quantity, unit=unit)
+    try:
+        curves = hazard_curves(ens, level=level, aep_max=aep_max, aep_min=aep_min, n_grid=n_grid)
+    except ValueError as exc:
+        raise InputError(str(exc), ensemble_path) from None
+    std = STANDARD_AEPS[(STANDARD_AEPS <= aep_max) & (STANDARD_AEPS >= aep_min)]
+    summary = standard_aep_table(curves, std)
+    with atomic_output_dir(out, overwrite=overwrite) as tmp:
+        write_csv(Path(tmp) / f"hazard_by_{curves.quantity}.csv", hazard_by_quantity(curves))
+        write_csv(Path(tmp) / "hazard_by_aep.csv", hazard_by_aep(curves))
+        if figure:
+            plot_hazard(curves, ens, Path(tmp) / "figures" / "hazard_ensemble",
+                        title=title or f"Hazard ensemble ({ens.size} realizations, {ens.family})")
+    return curves, summary
