@@ -11,7 +11,8 @@ $(BIN)/.installed: pyproject.toml
 	touch $@
 
 demo: $(BIN)/.installed
-	$(BIN)/riskcalc hazard scenarios/amberlow_levee/ensemble_lp3.csv --family lp3 --unit m3s --out out/demo-hazard --overwrite
+	$(BIN)/riskcalc run scenarios/amberlow_levee/scenario.toml --out out/amberlow_levee --overwrite
+	$(BIN)/riskcalc run scenarios/tarnhollow_dam/scenario.toml --out out/tarnhollow_dam --overwrite
 
 test: $(BIN)/.installed
 	$(BIN)/python -m pytest -q

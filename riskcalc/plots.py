@@ -108,3 +108,12 @@ def plot_hazard(curves, ens=None, path_stem=None, *, title="Hazard ensemble", ma
         if path_stem is None:
             return fig
         return save(fig, path_stem)
+
+
+def run_figures(result, folder):
+    """The figures of a risk run (PNG and SVG) into ``folder``; returns the written paths."""
+    folder = Path(folder)
+    sc = result.scenario
+    paths = plot_hazard(result.curves, sc.ensemble, folder / "hazard_ensemble",
+                        title=f"{sc.title}: hazard ensemble ({sc.ensemble.size} realizations)")
+    return paths

@@ -53,3 +53,70 @@ def standard_aep_table(curves, aeps) -> pd.DataFrame:
                        (f"{q}_{hi}{u}", curves.quantity_upper)):
         out[name] = invert_on_paper(vals, curves.aeps, aeps, curves.log_scale)
     return pd.DataFrame(out)
+
+
+def per_draw_table(result) -> pd.DataFrame:
+    """One row a Monte Carlo draw: its realization, weight and risks."""
+    prop = result.propagation
+    ens = result.scenario.ensemble
+    cur = result.scenario.units["currency"]
+    labels = np.asarray(ens.labels if ens.labels else [str(i + 1) for i in range(ens.size)], dtype=object)
+    cols = {"realization": labels[prop.realization],
+            "draw": np.tile(np.arange(1, prop.draws_per_realization + 1), ens.size),
+            "weight": prop.weights}
+    rename = {"afp": "afp_per_yr", "afp_lower_bound": "afp_lower_bound_per_yr", "ead": f"ead_{cur}_per_yr",
+              "ead_incremental": f"ead_incremental_{cur}_per_yr", "all": "all_lives_per_yr",
+              "all_incremental": "all_incremental_lives_per_yr"}
+    for i, n in enumerate(prop.names):
+        key = rename.get(n, "afp_per_yr_" + n.split(":", 1)[1].replace(" ", "_") if n.startswith("afp_mode:") else n)
+        cols[key] = prop.values[:, i]
+    return pd.DataFrame(cols)
+
+
+def fn_table(result) -> pd.DataFrame:
+    """F-N: annual probability of N or more fatalities on each curve (and ensemble percentiles)."""
+    fn = result.fn
+    out = {"life_loss_n": fn["levels"], "f_predictive_per_yr": fn["predictive"], "f_mode_per_yr": fn["mode"],
+           "f_median_curve_per_yr": fn["median_curve"]}
+    for q in ("p05", "p50", "p95"):
+        if q in fn:
+            out[f"f_{q}_per_yr"] = fn[q]
+    return pd.DataFrame(out)
+
+
+def response_table(result, n=400) -> pd.DataFrame:
+    """Stage, failure probabilities and nominal consequences along the hazard quantity."""
+    sc = result.scenario
+    model = sc.model
+    x = np.geomspace(result.grid[0], result.grid[-1], n) if result.curves.log_scale else np.linspace(
+        result.grid[0], result.grid[-1], n)
+    v = model.consequence_curves_at(x)
+    u, cur = sc.units, sc.units["currency"]
+    q = sc.ensemble.quantity
+    out = {f"{q}_{u['discharge'] if q == 'discharge' else u['stage']}": x,
+           "aep_predictive": np.interp(np.log(x) if result.curves.log_scale else x,
+                                       np.log(result.grid) if result.curves.log_scale else result.grid,
+                                       result.propagation.aep_predictive)}
+    if q == "discharge":
+        out[f"stage_{u['stage']}"] = v["stage"]
+    for name in model.mode_names:
+        out[f"p_failure_{name.replace(' ', '_')}"] = v[f"afp_mode:{name}"]
+    out["p_failure_system"] = v["afp"]
+    out["p_failure_lower_bound"] = v["afp_lower_bound"]
+    out[f"damage_breach_{cur}"] = v["damage_breach"]
+    out[f"damage_no_breach_{cur}"] = v["damage_no_breach"]
+    out["life_loss_breach"] = v["life_loss_breach"]
+    out["life_loss_no_breach"] = v["life_loss_no_breach"]
+    return pd.DataFrame(out)
+
+
+def aep_band_table(result) -> pd.DataFrame:
+    """Contribution of each AEP band (of the predictive curve) to AFP, EAD and ALL."""
+    cur = result.scenario.units["currency"]
+    bands = result.contributions["annual_failure_probability"]["bands"]
+    return pd.DataFrame({
+        "aep_upper": [b[0] for b in bands], "aep_lower": [b[1] for b in bands],
+        "afp_per_yr": result.contributions["annual_failure_probability"]["values"],
+        f"ead_{cur}_per_yr": result.contributions["expected_annual_damage"]["values"],
+        "all_lives_per_yr": result.contributions["annualized_life_loss"]["values"],
+    })

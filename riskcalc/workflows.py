@@ -49,3 +49,48 @@ def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, 
             plot_hazard(curves, ens, Path(tmp) / "figures" / "hazard_ensemble",
                         title=title or f"Hazard ensemble ({ens.size} realizations, {ens.family})")
     return curves, summary
+
+
+def write_run_outputs(result, out, *, overwrite=False, figures=True):
+    """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically."""
+    from .io import write_json
+    from .tables import aep_band_table, fn_table, per_draw_table, response_table
+
+    sc = result.scenario
+    with atomic_output_dir(out, overwrite=overwrite) as tmp:
+        tmp = Path(tmp)
+        write_json(tmp / "summary.json", result.summary())
+        t = tmp / "tables"
+        t.mkdir()
+        write_csv(t / "per_draw.csv", per_draw_table(result))
+        write_csv(t / "fn_curve.csv", fn_table(result))
+        write_csv(t / f"hazard_by_{result.curves.quantity}.csv", hazard_by_quantity(result.curves))
+        write_csv(t / "hazard_by_aep.csv", hazard_by_aep(result.curves))
+        write_csv(t / f"response_by_{sc.ensemble.quantity}.csv", response_table(result))
+        write_csv(t / "risk_by_aep_band.csv", aep_band_table(result))
+        if figures and sc.outputs.get("figures", True):
+            from . import plots
+
+            plots.run_figures(result, tmp / "figures")
+        if sc.outputs.get("memo", True):
+            try:
+                from .report import write_memo
+            except ImportError:  # the memo arrives with the report module
+                write_memo = None
+            if write_memo is not None:
+                write_memo(result, tmp)
+    return Path(out)
+
+
+def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=None, figures=True):
+    """Load, validate and assess a scenario, then write its outputs. Returns the :class:`RiskResult`."""
+    from .assess import assess
+    from .scenario import load_scenario
+
+    out = Path(out)
+    if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:
+        raise InputError("output directory is not empty; pass --overwrite to replace it", out)
+    sc = load_scenario(scenario_path)
+    result = assess(sc, workers=workers, progress=progress)
+    write_run_outputs(result, out, overwrite=overwrite, figures=figures)
+    return result

@@ -187,14 +187,20 @@ def quantity_grid(ens: HazardEnsemble, aep_max=0.999, aep_min=1e-7, n=2000, spac
     -------
     ndarray (Q,), strictly increasing.
     """
-    lo = hi = None
+    lows, his = [], []
     for e in (ens, *extra_curves):
-        lo_e = np.nanmin(_chunked_quantile(e, aep_max))
-        hi_e = np.nanmax(_chunked_quantile(e, aep_min))
-        lo = lo_e if lo is None else min(lo, lo_e)
-        hi = hi_e if hi is None else max(hi, hi_e)
+        lows.append(_chunked_quantile(e, aep_max))
+        his.append(np.nanmax(_chunked_quantile(e, aep_min)))
+    low = np.concatenate(lows)
+    lo, hi = float(np.nanmin(low)), float(max(his))
     if spacing is None:
         spacing = "log" if ens.log_scale else "linear"
+    if spacing == "log" and lo <= 0 < hi:
+        # members reaching zero or negative discharge (an unbounded-below GEV, say): discharge <= 0 carries
+        # no risk, so the grid starts at the smallest positive member value at aep_max (at most hi * 1e-6 below)
+        pos = low[low > 0]
+        lo = float(pos.min()) if pos.size else hi * 1e-6
+        lo = max(lo, hi * 1e-9)
     if not (np.isfinite(lo) and np.isfinite(hi) and hi > lo):
         raise ValueError(f"the ensemble spans no range between AEP {aep_max} and {aep_min} "
                          f"(from {lo} to {hi})")
