@@ -7,7 +7,7 @@ BIN := $(VENV)/bin
 
 $(BIN)/.installed: pyproject.toml
 	$(PYTHON) -m venv $(VENV)
-	$(BIN)/python -m pip install --quiet --disable-pip-version-check -e '.[test]'
+	$(BIN)/python -m pip install --quiet --disable-pip-version-check -e '.[test,dask]'
 	touch $@
 
 demo: $(BIN)/.installed

@@ -67,3 +67,4 @@ def main(argv=None):
 # command modules register themselves on `app` when imported
 from . import hazard as _hazard  # noqa: E402,F401
 from . import risk as _risk  # noqa: E402,F401
+from . import portfolio as _portfolio  # noqa: E402,F401

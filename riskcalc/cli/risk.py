@@ -64,7 +64,7 @@ def run(
     out: Path = typer.Option(..., "--out", "-o", help="Output directory (created; replaced only with --overwrite)."),
     overwrite: bool = typer.Option(False, help="Replace a non-empty output directory."),
     workers: int = typer.Option(0, help="Threads for the Monte Carlo (0: the machine's cores, at most 4)."),
-    quiet: bool = typer.Option(False, "--quiet", "-q", help="Print only the output path."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar; print only the output path."),
 ):
     """Run the whole risk chain on a scenario: AFP, EAD, ALL, F-N, mean versus mode.
 
@@ -75,9 +75,11 @@ def run(
     writes out/amberlow/summary.json, tables/*.csv, figures/*.png|svg and the memo, and prints the
     headline table with the caution.
     """
+    from ..progress import progress_bar
     from ..workflows import run_scenario
 
-    result = run_scenario(scenario, out, overwrite=overwrite, workers=workers or None)
+    with progress_bar("Monte Carlo chunks", enabled=not quiet) as update:
+        result = run_scenario(scenario, out, overwrite=overwrite, workers=workers or None, progress=update)
     s = result.summary()
     if not quiet:
         typer.echo(s["title"])

@@ -201,7 +201,11 @@ def quantity_grid(ens: HazardEnsemble, aep_max=0.999, aep_min=1e-7, n=2000, spac
         pos = low[low > 0]
         lo = float(pos.min()) if pos.size else hi * 1e-6
         lo = max(lo, hi * 1e-9)
-    if not (np.isfinite(lo) and np.isfinite(hi) and hi > lo):
+    if not (np.isfinite(lo) and np.isfinite(hi)):
+        raise ValueError(f"the ensemble's quantities between AEP {aep_max} and {aep_min} are not finite numbers "
+                         f"(from {lo} to {hi}); check the parameters (lp3 and lognormal take the mean and sd "
+                         "of log10 of the quantity)")
+    if not hi > lo:
         raise ValueError(f"the ensemble spans no range between AEP {aep_max} and {aep_min} "
                          f"(from {lo} to {hi})")
     if spacing == "log":
@@ -218,8 +222,10 @@ def quantity_grid(ens: HazardEnsemble, aep_max=0.999, aep_min=1e-7, n=2000, spac
 
 def _chunked_quantile(ens, p):
     out = np.empty(ens.size)
-    for rows in row_chunks(ens.size, 1, 8 * 2**20):
-        out[rows] = ens.quantile(np.array([p]), rows)[:, 0]
+    # an overflow gives inf, which quantity_grid reports as an input error; no RuntimeWarning on stderr
+    with np.errstate(over="ignore"):
+        for rows in row_chunks(ens.size, 1, 8 * 2**20):
+            out[rows] = ens.quantile(np.array([p]), rows)[:, 0]
     return out
 
 
@@ -261,10 +267,16 @@ def mode_curve(ens: HazardEnsemble, explicit: dict | None = None):
 def vertical_quantiles(ens: HazardEnsemble, aeps, levels, chunk_bytes=CHUNK_BYTES):
     """Weighted quantiles over realizations of x_r(p) at each AEP: (L, P)."""
     aeps = np.asarray(aeps, float)
-    q = np.empty((ens.size, aeps.size))
-    for rows in row_chunks(ens.size, aeps.size, chunk_bytes):
-        q[rows] = ens.quantile(aeps, rows)
-    return weighted_quantile(q, ens.weights, levels)
+    # blocks of AEP columns so that the (R, block) array stays within about 4 chunks of memory
+    block = max(1, min(aeps.size, int(4 * chunk_bytes // (8 * max(1, ens.size)))))
+    out = []
+    for a in range(0, aeps.size, block):
+        cols = aeps[a:a + block]
+        q = np.empty((ens.size, cols.size))
+        for rows in row_chunks(ens.size, cols.size, chunk_bytes):
+            q[rows] = ens.quantile(cols, rows)
+        out.append(weighted_quantile(q, ens.weights, levels))
+    return np.concatenate(out, axis=1)
 
 
 def median_curve(aeps, median_values, ens: HazardEnsemble) -> HazardEnsemble:
