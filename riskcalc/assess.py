@@ -74,6 +74,17 @@ class RiskResult:
     sensitivity: dict | None = None
     extras: dict = field(default_factory=dict)
 
+    def tables(self) -> dict:
+        """The run's tidy tables as pandas DataFrames, keyed by their file stem under ``tables/``."""
+        from .tables import (aep_band_table, fn_table, hazard_by_aep, hazard_by_quantity, per_draw_table,
+                             response_table)
+
+        q = self.curves.quantity
+        return {"per_draw": per_draw_table(self), "fn_curve": fn_table(self),
+                f"hazard_by_{q}": hazard_by_quantity(self.curves), "hazard_by_aep": hazard_by_aep(self.curves),
+                f"response_by_{self.scenario.ensemble.quantity}": response_table(self),
+                "risk_by_aep_band": aep_band_table(self)}
+
     def summary(self) -> dict:
         """The summary.json structure."""
         out = {k: v for k, v in self.headline.items()}

@@ -54,7 +54,6 @@ def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, 
 def write_run_outputs(result, out, *, overwrite=False, figures=True):
     """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically."""
     from .io import write_json
-    from .tables import aep_band_table, fn_table, per_draw_table, response_table
 
     sc = result.scenario
     with atomic_output_dir(out, overwrite=overwrite) as tmp:
@@ -62,12 +61,8 @@ def write_run_outputs(result, out, *, overwrite=False, figures=True):
         write_json(tmp / "summary.json", result.summary())
         t = tmp / "tables"
         t.mkdir()
-        write_csv(t / "per_draw.csv", per_draw_table(result))
-        write_csv(t / "fn_curve.csv", fn_table(result))
-        write_csv(t / f"hazard_by_{result.curves.quantity}.csv", hazard_by_quantity(result.curves))
-        write_csv(t / "hazard_by_aep.csv", hazard_by_aep(result.curves))
-        write_csv(t / f"response_by_{sc.ensemble.quantity}.csv", response_table(result))
-        write_csv(t / "risk_by_aep_band.csv", aep_band_table(result))
+        for name, df in result.tables().items():
+            write_csv(t / f"{name}.csv", df)
         if figures and sc.outputs.get("figures", True):
             from . import plots
 
