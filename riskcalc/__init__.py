@@ -18,23 +18,10 @@ __version__ = "0.1.0"
 __all__ = ["__version__", "load_scenario", "assess", "run", "read_ensemble", "hazard_curves", "InputError"]
 
 
-def __getattr__(name):  # lazy, so that `import riskcalc` stays light
-    if name == "load_scenario":
-        from .scenario import load_scenario
-        return load_scenario
-    if name == "assess":
-        from .assess import assess
-        return assess
-    if name == "run":
-        from .workflows import run_scenario
-        return run_scenario
-    if name == "read_ensemble":
-        from .hazard import read_ensemble
-        return read_ensemble
-    if name == "hazard_curves":
-        from .hazard import hazard_curves
-        return hazard_curves
-    if name == "InputError":
-        from .errors import InputError
-        return InputError
-    raise AttributeError(f"module 'riskcalc' has no attribute '{name}'")
+# the submodule riskcalc.assess shares its name with the function: importing the function here,
+# after the submodule has loaded, keeps `riskcalc.assess` the function
+from .assess import assess  # noqa: E402
+from .errors import InputError  # noqa: E402
+from .hazard import hazard_curves, read_ensemble  # noqa: E402
+from .scenario import load_scenario  # noqa: E402
+from .workflows import run_scenario as run  # noqa: E402

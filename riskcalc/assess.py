@@ -214,7 +214,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
                             f"the predictive value; the ensemble ({ens.size} realizations) is too small for the "
                             "AEPs that carry this risk")
     ess = 1.0 / float(np.sum(ens.weights ** 2))
-    if ess < 200:
+    if ess < 200 * (1 - 1e-9):
         warnings.append(f"the ensemble's effective size is {ess:.0f} realizations; percentiles and the predictive "
                         "tail are uncertain below about 200")
     # F-N

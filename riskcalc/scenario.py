@@ -162,6 +162,18 @@ def _typename(t):
             list: "a list"}.get(t, t.__name__)
 
 
+def _file_name(v, file, key):
+    """Refuse an empty table path (it would otherwise resolve to the scenario's folder)."""
+    if not str(v).strip():
+        raise InputError("is empty; expected the name of a .csv or .xlsx table", file, key=key)
+    return v
+
+
+def _mode_key(name: str) -> str:
+    """A failure-mode name as it appears in table columns and summary keys (spaces -> '_', any case)."""
+    return "_".join(str(name).split()).lower()
+
+
 def _probability(v, file, key, open_=True):
     if not (0 < v < 1 if open_ else 0 <= v <= 1):
         raise InputError(f"{v} is outside {'(0, 1)' if open_ else '[0, 1]'}; expected a probability", file, key=key)
@@ -218,6 +230,7 @@ def build_model(d: dict, file, units: dict, variable: str) -> RiskModel:
         for k in ("natural_sd", "knowledge_sd"):
             if r[k] < 0:
                 raise InputError(f"{r[k]} is negative; expected a standard deviation >= 0", file, key=f"rating.{k}")
+        _file_name(r["table"], file, "rating.table")
         rating, spread = read_rating_table(r["table"], discharge_unit=q_u, stage_unit=stage_u,
                                            extrapolation=r["extrapolation"])
         natural = spread if spread is not None else (StageSpread(sd=r["natural_sd"]) if r["natural_sd"] > 0 else None)
@@ -239,10 +252,13 @@ def build_model(d: dict, file, units: dict, variable: str) -> RiskModel:
     for i, fm in enumerate(fms):
         key = f"failure_modes[{i + 1}]"
         f = _check("failure_mode", fm, file, key + ".")
-        if f["name"] in seen:
-            raise InputError(f"failure-mode name '{f['name']}' is used twice; names must be unique", file,
+        if not f["name"].strip():
+            raise InputError("is empty; expected a failure-mode name", file, key=key + ".name")
+        if _mode_key(f["name"]) in seen:
+            raise InputError(f"failure-mode name '{f['name']}' is used twice (names are compared ignoring case and "
+                             "with spaces as '_', as in the output tables); names must be unique", file,
                              key=key + ".name")
-        seen.add(f["name"])
+        seen.add(_mode_key(f["name"]))
         if f["shift_sd"] < 0:
             raise InputError("expected a standard deviation >= 0", file, key=key + ".shift_sd")
         sr = f["spread_range"]
@@ -276,6 +292,7 @@ def build_model(d: dict, file, units: dict, variable: str) -> RiskModel:
             nodes.append(node)
         modes.append(FailureMode(f["name"], tuple(nodes), f["shift_sd"], tuple(float(v) for v in sr) if sr else None))
     c = _check("consequences", d.get("consequences"), file, "consequences.")
+    _file_name(c["table"], file, "consequences.table")
     cons = read_consequence_table(c["table"], stage_unit=stage_u, currency=cur)
     dm = _multiplier(c["damage_multiplier"], file, "consequences.damage_multiplier")
     lm = _multiplier(c["life_loss_multiplier"], file, "consequences.life_loss_multiplier")
@@ -319,6 +336,7 @@ def load_scenario(path) -> Scenario:
                          key="hazard.family")
     _probability(hz["credible_level"], path, "hazard.credible_level")
     unit = units["discharge"] if hz["variable"] == "discharge" else units["stage"]
+    _file_name(hz["ensemble"], path, "hazard.ensemble")
     ens = read_ensemble(hz["ensemble"], family, quantity=hz["variable"], unit=unit)
     if family == "table" and ens.quantity != hz["variable"]:
         raise InputError(f"the curve table gives {ens.quantity} but hazard.variable is {hz['variable']}", path,
@@ -334,6 +352,10 @@ def load_scenario(path) -> Scenario:
         for k in need:
             if k not in mode or not isinstance(mode[k], (int, float)) or isinstance(mode[k], bool):
                 raise InputError("missing or not a number", path, key=f"hazard.mode.{k}")
+            if not math.isfinite(mode[k]):
+                raise InputError(f"{mode[k]} is not finite", path, key=f"hazard.mode.{k}")
+            if k in FAMILIES[family].positive and not mode[k] > 0:
+                raise InputError(f"{mode[k]} must be greater than 0", path, key=f"hazard.mode.{k}")
     grid = _check("grid", top["grid"], path, "grid.")
     _probability(grid["aep_max"], path, "grid.aep_max")
     _probability(grid["aep_min"], path, "grid.aep_min")
@@ -347,6 +369,9 @@ def load_scenario(path) -> Scenario:
     unc = _check("uncertainty", top["uncertainty"], path, "uncertainty.")
     if not 1 <= unc["draws_per_realization"] <= 10_000:
         raise InputError("expected 1 to 10000", path, key="uncertainty.draws_per_realization")
+    if unc["workers"] < 0:
+        raise InputError(f"{unc['workers']} is negative; expected 0 (the machine's cores) or a number of threads",
+                         path, key="uncertainty.workers")
     checks = _check("checks", top["checks"], path, "checks.")
     _probability(checks["design_aep"], path, "checks.design_aep")
     if checks["years"] < 1:

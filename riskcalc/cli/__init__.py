@@ -40,7 +40,7 @@ def _fmt(v: float) -> str:
 def main(argv=None):
     """Entry point: runs the app, turning input errors into one line and exit status 2."""
     try:
-        app(args=argv, standalone_mode=False)
+        rv = app(args=argv, standalone_mode=False)
     except InputError as exc:
         typer.echo(f"riskcalc: error: {exc}", err=True)
         sys.exit(2)
@@ -59,7 +59,10 @@ def main(argv=None):
             exc.show()
             sys.exit(2)
         raise
-    sys.exit(0)
+    if rv == 130:  # click returns 130 for Ctrl-C when standalone_mode=False
+        typer.echo("riskcalc: interrupted; no results were written", err=True)
+        sys.exit(130)
+    sys.exit(rv if isinstance(rv, int) and not isinstance(rv, bool) else 0)
 
 
 

@@ -217,6 +217,10 @@ def quantity_grid(ens: HazardEnsemble, aep_max=0.999, aep_min=1e-7, n=2000, spac
     b = np.asarray([v for v in breakpoints if lo < v < hi], dtype=float)
     if b.size:
         g = np.unique(np.concatenate([g, b]))
+        # a breakpoint that equals a grid point or another breakpoint up to rounding (a table stage
+        # mapped back through the rating) would leave a cell of zero width: keep the first of the two
+        keep = np.concatenate([[True], np.diff(g) > 1e-12 * np.abs(g[1:])])
+        g = g[keep]
     return g
 
 
