@@ -51,7 +51,7 @@ def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, 
     return curves, summary
 
 
-def write_run_outputs(result, out, *, overwrite=False, figures=True):
+def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity_report=None):
     """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically."""
     from .io import write_json
 
@@ -67,6 +67,10 @@ def write_run_outputs(result, out, *, overwrite=False, figures=True):
             from . import plots
 
             plots.run_figures(result, tmp / "figures")
+        if sensitivity_report is not None:
+            from .drivers import write_sensitivity_outputs
+
+            write_sensitivity_outputs(sensitivity_report, tmp, figures=figures and sc.outputs.get("figures", True))
         if sc.outputs.get("memo", True):
             try:
                 from .report import write_memo
@@ -87,5 +91,14 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
         raise InputError("output directory is not empty; pass --overwrite to replace it", out)
     sc = load_scenario(scenario_path)
     result = assess(sc, workers=workers, progress=progress)
-    write_run_outputs(result, out, overwrite=overwrite, figures=figures)
+    report = None
+    from .drivers import sensitivity_enabled, sensitivity_for_run
+
+    if sensitivity_enabled(sc):
+        import dataclasses
+
+        report = sensitivity_for_run(sc, result, workers=workers)
+        result = dataclasses.replace(result, sensitivity=report.summary(),
+                                     warnings=[*result.warnings, *report.warnings])
+    write_run_outputs(result, out, overwrite=overwrite, figures=figures, sensitivity_report=report)
     return result

@@ -71,3 +71,4 @@ def main(argv=None):
 from . import hazard as _hazard  # noqa: E402,F401
 from . import risk as _risk  # noqa: E402,F401
 from . import portfolio as _portfolio  # noqa: E402,F401
+from . import sensitivity as _sensitivity  # noqa: E402,F401
