@@ -107,6 +107,7 @@ class RiskResult:
         out["notes"] = list(self.notes)
         out["provenance"] = self.provenance
         out["title"] = self.scenario.title
+        out["description"] = self.scenario.description
         out["units"] = self.scenario.units
         out["caution"] = CAUTION_TEXT
         return _plain(out)

@@ -1046,42 +1046,15 @@ def sensitivity_for_run(scenario, result, settings: SensitivitySettings | None =
 # outputs
 # --------------------------------------------------------------------------
 def plot_indices(report: SensitivityReport, path_stem=None, *, top: int = 12):
-    """Ranked total and first-order indices with their intervals, one panel per output.
+    """Ranked total and first-order indices with their intervals, one panel per output
+    (:func:`riskcalc.plots.plot_sensitivity` with each panel's sample size and level).
 
     Returns the figure when ``path_stem`` is None, else the written paths (PNG and SVG).
     """
-    import matplotlib.pyplot as plt
+    from .plots import plot_sensitivity
 
-    from .plots import STYLE, save
-
-    shown = [(k, r) for k, r in report.sobol.items() if not np.all(np.isnan(r.ST))]
-    fig, axes = plt.subplots(1, max(1, len(shown)), figsize=(3.6 * max(1, len(shown)), 0.35 * min(
-        top, len(report.sobol[OUTPUT_KEYS[0]].factors)) + 1.6), squeeze=False, sharey=False)
-    for ax, (k, r) in zip(axes[0], shown):
-        idx = np.argsort(-np.nan_to_num(r.ST, nan=-np.inf), kind="stable")[:top][::-1]
-        y = np.arange(idx.size)
-        ax.barh(y, r.ST[idx], xerr=r.ST_conf[idx], color=STYLE["band"]["color"], edgecolor=STYLE["predictive"]["color"],
-                lw=0.5, error_kw={"lw": 0.8, "capsize": 2}, label="total ST")
-        ax.errorbar(r.S1[idx], y, xerr=r.S1_conf[idx], fmt="o", ms=4, color=STYLE["accent"], lw=0.8, capsize=2,
-                    label="first order S1")
-        ax.set_yticks(y)
-        ax.set_yticklabels([r.factors[i] for i in idx], fontsize=8)
-        ax.axvline(0, color=STYLE["predictive"]["color"], lw=0.6)
-        ax.set_xlim(min(-0.05, float(np.nanmin(r.S1 - r.S1_conf)) - 0.02), 1.05)
-        ax.set_xlabel("Sobol' index [-]")
-        ax.set_title(f"{_SHORT[k]} (N = {r.n}, {round(100 * r.conf_level)} % intervals)", fontsize=9)
-        ax.grid(True, axis="x", color=STYLE["grid"], lw=0.6)
-        ax.spines[["top", "right"]].set_visible(False)
-    if not shown:
-        axes[0, 0].text(0.5, 0.5, "every output is constant: no variance to apportion", ha="center", va="center")
-        axes[0, 0].set_axis_off()
-    else:
-        axes[0, 0].legend(loc="lower right", frameon=False, fontsize=7)
-    fig.suptitle("What drives the risk: Sobol' indices, ranked by total effect", fontsize=10)
-    fig.tight_layout()
-    if path_stem is None:
-        return fig
-    return save(fig, path_stem)
+    notes = {k: f"N = {r.n}, {round(100 * r.conf_level)} % intervals" for k, r in report.sobol.items()}
+    return plot_sensitivity(report.summary(), path_stem, panel_notes=notes, top=top)
 
 
 def write_sensitivity_outputs(report: SensitivityReport, folder, *, figures: bool = True, json_name=None):

@@ -70,7 +70,8 @@ def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity
         if sensitivity_report is not None:
             from .drivers import write_sensitivity_outputs
 
-            write_sensitivity_outputs(sensitivity_report, tmp, figures=figures and sc.outputs.get("figures", True))
+            # the run's figure of the indices comes from plots.run_figures (same function as the command's)
+            write_sensitivity_outputs(sensitivity_report, tmp, figures=False)
         if sc.outputs.get("memo", True):
             try:
                 from .report import write_memo

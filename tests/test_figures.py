@@ -1,0 +1,118 @@
+"""Figures of a risk run: files written, readable, deterministic, and drawing the right lines."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import matplotlib.pyplot as plt
+import numpy as np
+import pytest
+
+from riskcalc import plots
+from riskcalc.assess import assess
+from riskcalc.guidelines import DEFAULT_GUIDELINES
+from riskcalc.scenario import load_scenario
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+@pytest.fixture(scope="module")
+def bundled(tmp_path_factory):
+    """The bundled dam scenario (two failure modes, life loss), assessed once, its figures written once."""
+    sc = load_scenario(ROOT / "scenarios" / "tarnhollow_dam" / "scenario.toml")
+    result = assess(sc)
+    folder = tmp_path_factory.mktemp("figs")
+    paths = plots.run_figures(result, folder)
+    return result, folder, paths
+
+
+def test_every_figure_is_written_as_png_and_svg(bundled):
+    _, folder, paths = bundled
+    expected = [s for s in plots.FIGURE_STEMS if s != "sensitivity_indices"]  # no sensitivity results yet
+    assert sorted(p.name for p in paths) == sorted(f"{s}.{e}" for s in expected for e in ("png", "svg"))
+    for stem in expected:
+        img = plt.imread(folder / f"{stem}.png")[..., :3]
+        assert img.shape[0] > 300 and img.shape[1] > 600
+        assert img.std() > 0.05  # not blank
+        svg = (folder / f"{stem}.svg").read_text()
+        assert "<svg" in svg and "<dc:date>" not in svg  # no date in the metadata
+
+
+def test_figures_are_deterministic(bundled, tmp_path):
+    result, folder, _ = bundled
+    # the two figures with seeded subsampling (members, f-N draws) drawn again give the same bytes
+    plots.plot_hazard(result.curves, result.scenario.ensemble, tmp_path / "hazard_ensemble",
+                      title=f"{result.scenario.title}: hazard ensemble ({result.scenario.ensemble.size} realizations)")
+    plots.plot_fn(result, plots.scenario_guidelines(result.scenario), tmp_path / "fn_chart")
+    for name in ("hazard_ensemble.png", "hazard_ensemble.svg", "fn_chart.png", "fn_chart.svg"):
+        assert (tmp_path / name).read_bytes() == (folder / name).read_bytes(), name
+
+
+def test_aep_distribution_marks_the_weighted_mean_and_the_mode(bundled):
+    result, _, _ = bundled
+    ens = result.scenario.ensemble
+    x = result.crest["mode"][ens.quantity]
+    # predictive AEP = weighted mean of the member AEPs at fixed discharge (Stedinger 1983)
+    p = ens.aep(np.array([x]))[:, 0]
+    fig = plots.plot_aep_distribution(result)
+    ax = fig.axes[0]
+    xs = sorted(float(ln.get_xdata()[0]) for ln in ax.get_lines() if len(ln.get_xdata()) == 2)
+    plt.close(fig)
+    assert any(v == pytest.approx(float(ens.weights @ p), rel=1e-12) for v in xs)
+    # the mode curve's design-AEP discharge has the design AEP on the mode curve (by construction)
+    assert any(v == pytest.approx(result.crest["design_aep"]) for v in xs)
+
+
+def test_fn_chart_draws_only_chart_lines(bundled):
+    result, _, _ = bundled
+    gs = plots.scenario_guidelines(result.scenario)  # no [guidelines] section: every default set
+    assert {ln.name for ln in gs.lines} == {ln.name for s in DEFAULT_GUIDELINES.values() for ln in s.lines}
+    fig = plots.plot_fn(result, gs)
+    labels = " ".join(t.get_text().replace("\n", " ") for ax in fig.axes if ax.get_legend()
+                      for t in ax.get_legend().get_texts())
+    plt.close(fig)
+    for ln in gs.lines:
+        assert (ln.name in labels) == (ln in gs.chart_lines), ln.name
+
+
+def test_identical_lines_are_drawn_once():
+    # shared references section 7 [from memory]: the USACE societal limit and the ANCOLD limit for existing
+    # dams are the same line, (N = 1, F = 1e-3) to (N = 1000, F = 1e-6)
+    from riskcalc.guidelines import GuidelineSet
+
+    lines = DEFAULT_GUIDELINES["usace_2014"].lines + DEFAULT_GUIDELINES["ancold_2003"].lines
+    merged = plots.merged_chart_lines(GuidelineSet("all", "test", lines))
+    fn = [(ln, lab) for ln, lab in merged if ln.kind == "fn_limit"]
+    assert len(fn) == 2
+    assert any("USACE" in lab and "existing dams" in lab for _, lab in fn)
+
+
+def test_scenario_guidelines_section_is_used(scenario_factory):
+    path = scenario_factory(toml_extra="""
+    [guidelines]
+    name = "agency policy"
+    source = "Agency policy 2020, s. 4"
+    [[guidelines.fn_lines]]
+    name = "agency F-N limit"
+    source = "Agency policy 2020, s. 4"
+    anchor_n = 1
+    anchor_f = 1e-4
+    """)
+    gs = plots.scenario_guidelines(load_scenario(path))
+    assert [ln.name for ln in gs.lines] == ["agency F-N limit"]
+
+
+def test_sensitivity_figure_and_dollar_signs_in_labels(tmp_path):
+    sens = {"expected_annual_damage": {"damage $ multiplier": {"S1": 0.5, "S1_conf": 0.05, "ST": 0.6,
+                                                                "ST_conf": 0.06},
+                                       "hazard realization": {"S1": 0.3, "S1_conf": None, "ST": 0.4,
+                                                              "ST_conf": 0.02}}}
+    paths = plots.plot_sensitivity(sens, tmp_path / "s")
+    assert [p.suffix for p in paths] == [".png", ".svg"]
+    assert "damage $ multiplier" in (tmp_path / "s.svg").read_text()
+    assert plots.plot_sensitivity(None) is None
+
+
+def test_tick_labels_are_powers_of_ten():
+    assert plots._pow10(1e-4) == "10⁻⁴" and plots._pow10(100.0) == "10²" and plots._pow10(1.0) == "1"
+    assert plots._pow10(3e-4) == ""  # minor positions stay unlabelled
