@@ -13,6 +13,7 @@ $(BIN)/.installed: pyproject.toml
 demo: $(BIN)/.installed
 	$(BIN)/riskcalc run scenarios/amberlow_levee/scenario.toml --out out/amberlow_levee --overwrite
 	$(BIN)/riskcalc run scenarios/tarnhollow_dam/scenario.toml --out out/tarnhollow_dam --overwrite
+	$(BIN)/riskcalc run scenarios/amberlow_alternatives/scenario.toml --out out/amberlow_alternatives --overwrite
 
 test: $(BIN)/.installed
 	$(BIN)/python -m pytest -q

@@ -23,7 +23,7 @@ import numpy as np
 from .hazard.curves import CHUNK_BYTES
 from .integrate import cell_masses, cell_points, fn_curve
 
-__all__ = ["Propagation", "propagate", "cell_integrands", "default_workers"]
+__all__ = ["Propagation", "propagate", "cell_integrands", "chunk_rows_for", "default_workers"]
 
 
 def default_workers() -> int:
@@ -71,6 +71,14 @@ class Propagation:
         return self.values[:, self.names.index(name)]
 
 
+def chunk_rows_for(model, n_grid, chunk_bytes=CHUNK_BYTES) -> int:
+    """Realizations per chunk that keep one chunk's work arrays within ``chunk_bytes``."""
+    k = len(model.output_names())
+    nodes = model.hermite_nodes if (model.natural is not None and model.natural.active) else 1
+    per_row = n_grid * (1 + (k * nodes * 2 if model.has_knowledge_uncertainty else 0))
+    return max(1, int(chunk_bytes // (8 * per_row)))
+
+
 def cell_integrands(model, grid, rule="midpoint", log_spacing=True, draws=None):
     """Integrands per cell: (Q, K) nominal, or (D, Q, K) for ``draws``."""
     pts = cell_points(grid, log_spacing, rule)
@@ -81,7 +89,7 @@ def cell_integrands(model, grid, rule="midpoint", log_spacing=True, draws=None):
 
 
 def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="midpoint", log_spacing=True,
-              workers=None, chunk_bytes=CHUNK_BYTES, fn_levels=None, progress=None) -> Propagation:
+              workers=None, chunk_bytes=CHUNK_BYTES, chunk_rows=None, fn_levels=None, progress=None) -> Propagation:
     """Run every realization (and its response draws) through the chain.
 
     Parameters
@@ -97,6 +105,9 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
     workers : int, optional
         Threads for chunks (scipy's special functions release the GIL); default
         :func:`default_workers`. Results are identical for any number.
+    chunk_rows : int, optional
+        Realizations per chunk (overrides ``chunk_bytes``); runs that must share random streams
+        (paired alternatives) pass the same value.
     fn_levels : ndarray (L,), optional
         Life-loss levels of the per-realization F-N table.
     progress : callable, optional
@@ -111,9 +122,7 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
     K = len(names)
     G = cell_integrands(model, grid, rule, log_spacing)
     knowledge = model.has_knowledge_uncertainty
-    nodes = model.hermite_nodes if (model.natural is not None and model.natural.active) else 1
-    per_row = Q * (1 + (K * nodes * 2 if knowledge else 0))
-    step = max(1, int(chunk_bytes // (8 * per_row)))
+    step = int(chunk_rows) if chunk_rows else chunk_rows_for(model, Q, chunk_bytes)
     R = ens.size
     chunks = [slice(a, min(R, a + step)) for a in range(0, R, step)]
     ss = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)

@@ -94,6 +94,12 @@ def _absolutize(d: dict, here: Path):
     for alt in d.get("alternatives", []) or []:
         if isinstance(alt, dict):
             _absolutize(alt, here)
+    fut = d.get("future")
+    if isinstance(fut, dict):
+        _absolutize(fut, here)
+    econ = d.get("economics")
+    if isinstance(econ, dict) and isinstance(econ.get("future"), dict):
+        _absolutize(econ["future"], here)
 
 
 def _merge(base: dict, top: dict) -> dict:

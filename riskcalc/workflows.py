@@ -51,7 +51,7 @@ def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, 
     return curves, summary
 
 
-def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity_report=None):
+def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity_report=None, comparison=None):
     """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically."""
     from .io import write_json
 
@@ -72,6 +72,10 @@ def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity
 
             # the run's figure of the indices comes from plots.run_figures (same function as the command's)
             write_sensitivity_outputs(sensitivity_report, tmp, figures=False)
+        if comparison is not None:
+            from .alternatives import write_comparison_files
+
+            write_comparison_files(comparison, tmp, figures=figures and sc.outputs.get("figures", True))
         if sc.outputs.get("memo", True):
             try:
                 from .report import write_memo
@@ -101,5 +105,12 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
         report = sensitivity_for_run(sc, result, workers=workers)
         result = dataclasses.replace(result, sensitivity=report.summary(),
                                      warnings=[*result.warnings, *report.warnings])
-    write_run_outputs(result, out, overwrite=overwrite, figures=figures, sensitivity_report=report)
+    comparison = None
+    if sc.alternatives:
+        from .alternatives import attach_memo_section, compare
+
+        comparison = compare(sc, workers=workers)
+        attach_memo_section(result, comparison)
+    write_run_outputs(result, out, overwrite=overwrite, figures=figures, sensitivity_report=report,
+                      comparison=comparison)
     return result

@@ -73,3 +73,4 @@ from . import risk as _risk  # noqa: E402,F401
 from . import portfolio as _portfolio  # noqa: E402,F401
 from . import sensitivity as _sensitivity  # noqa: E402,F401
 from . import memo as _memo  # noqa: E402,F401
+from . import compare as _compare  # noqa: E402,F401
