@@ -85,14 +85,16 @@ def weighted_quantile(values, weights, levels):
         v = v[:, None]
     w = np.asarray(weights, dtype=float)
     lv = np.atleast_1d(np.asarray(levels, dtype=float))
-    order = np.argsort(v, axis=0, kind="stable")
-    vs = np.take_along_axis(v, order, axis=0)
-    ws = w[order]
-    cw = np.cumsum(ws, axis=0) - 0.5 * ws
     out = np.empty((lv.size, v.shape[1]))
+    keep_w = w > 0
+    # one column at a time: memory O(R) whatever the number of columns
     for j in range(v.shape[1]):
-        keep = ws[:, j] > 0
-        out[:, j] = np.interp(lv, cw[keep, j], vs[keep, j])
+        col = v[keep_w, j]
+        ww = w[keep_w]
+        order = np.argsort(col, kind="stable")
+        ws = ww[order]
+        cw = np.cumsum(ws) - 0.5 * ws
+        out[:, j] = np.interp(lv, cw, col[order])
     return out
 
 
@@ -142,7 +144,7 @@ def aep_on_paper(x_curve, aep_curve, x, log_scale=True):
     return sc.ndtr(-zi)
 
 
-def band_aeps(aep_max=0.999, aep_min=1e-7, n=81):
+def band_aeps(aep_max=0.999, aep_min=1e-7, n=49):
     """AEPs evenly spaced on probability paper from ``aep_max`` down to ``aep_min``, plus the standard AEPs."""
     z = np.linspace(_paper(aep_max), _paper(aep_min), n)
     p = sc.ndtr(-z)
@@ -271,16 +273,34 @@ def mode_curve(ens: HazardEnsemble, explicit: dict | None = None):
 def vertical_quantiles(ens: HazardEnsemble, aeps, levels, chunk_bytes=CHUNK_BYTES):
     """Weighted quantiles over realizations of x_r(p) at each AEP: (L, P)."""
     aeps = np.asarray(aeps, float)
-    # blocks of AEP columns so that the (R, block) array stays within about 4 chunks of memory
-    block = max(1, min(aeps.size, int(4 * chunk_bytes // (8 * max(1, ens.size)))))
+    # blocks of AEP columns so that the (R, block) array stays within about two chunks of memory
+    block = max(1, min(aeps.size, int(2 * chunk_bytes // (8 * max(1, ens.size)))))
     out = []
     for a in range(0, aeps.size, block):
         cols = aeps[a:a + block]
         q = np.empty((ens.size, cols.size))
-        for rows in row_chunks(ens.size, cols.size, chunk_bytes):
+        chunks = list(row_chunks(ens.size, cols.size, max(8 * cols.size, chunk_bytes // 4)))
+
+        def fill(rows, cols=cols, q=q):
             q[rows] = ens.quantile(cols, rows)
+
+        _in_threads(fill, chunks)
         out.append(weighted_quantile(q, ens.weights, levels))
     return np.concatenate(out, axis=1)
+
+
+def _in_threads(fn, items, workers=None):
+    """Run ``fn`` on each item, in threads when there are several (scipy.special releases the GIL)."""
+    import os
+    from concurrent.futures import ThreadPoolExecutor
+
+    n = max(1, min(4, os.cpu_count() or 1)) if workers is None else workers
+    if n == 1 or len(items) < 2:
+        for it in items:
+            fn(it)
+        return
+    with ThreadPoolExecutor(n) as ex:
+        list(ex.map(fn, items))
 
 
 def median_curve(aeps, median_values, ens: HazardEnsemble) -> HazardEnsemble:
