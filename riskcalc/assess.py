@@ -273,7 +273,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
                  f"(checked: AFP {v_pred_measure[0]:.6g} on the predictive masses)")
     provenance = {"riskcalc_version": __version__, "date": _dt.date.today().isoformat(), "seed": sc.seed,
                   "python": platform.python_version(), "scenario": str(sc.path.name),
-                  "inputs": {str(p.name): sha256(p) for p in sc.files},
+                  "inputs": dict(sc.file_hashes) or {str(p.name): sha256(p) for p in sc.files},
                   "settings": {"grid_points": int(grid.size), "aep_max": g["aep_max"], "aep_min": g["aep_min"],
                                "rule": rule, "credible_level": sc.credible_level, "draws_per_realization": k,
                                "realizations": ens.size, "family": ens.family, "hazard_variable": ens.quantity,

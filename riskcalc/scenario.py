@@ -208,6 +208,7 @@ class Scenario:
     economics: dict
     files: tuple = ()
     raw: dict = field(default_factory=dict)
+    file_hashes: dict = field(default_factory=dict)  # SHA-256 of every input as read, keyed by relative path
 
     @property
     def variable(self):
@@ -310,6 +311,31 @@ def build_model(d: dict, file, units: dict, variable: str) -> RiskModel:
                      rating_offset_sd=offset_sd, hermite_nodes=unc["hermite_nodes"])
 
 
+def _table_paths(obj) -> list:
+    """Existing table files named anywhere inside alternatives or economics settings (for provenance)."""
+    out = []
+    if isinstance(obj, dict):
+        for v in obj.values():
+            out += _table_paths(v)
+    elif isinstance(obj, list):
+        for v in obj:
+            out += _table_paths(v)
+    elif isinstance(obj, str) and obj.lower().endswith((".csv", ".xlsx", ".xlsm")) and Path(obj).is_file():
+        out.append(Path(obj))
+    return out
+
+
+def _hashes(files, scenario_path) -> dict:
+    """SHA-256 of each file, keyed by its path relative to the scenario's folder (unique even when two
+    inputs share a file name)."""
+    import os
+
+    from .io import sha256
+
+    here = Path(scenario_path).resolve().parent
+    return {Path(os.path.relpath(Path(f).resolve(), here)).as_posix(): sha256(f) for f in files}
+
+
 def load_scenario(path) -> Scenario:
     """Read and validate a scenario file and every table it names.
 
@@ -389,8 +415,10 @@ def load_scenario(path) -> Scenario:
     for m in model.modes:
         inputs += [Path(n.source) for n in m.nodes if n.source]
     inputs.append(Path(model.consequences.source))
+    inputs += _table_paths(top["alternatives"]) + _table_paths(top["economics"])
+    all_files = tuple(dict.fromkeys([*files, *inputs]))
     return Scenario(path=path, title=top["title"], description=top["description"], seed=top["seed"], units=units,
                     ensemble=ens, mode_params={k: float(v) for k, v in mode.items()}, model=model,
                     credible_level=hz["credible_level"], grid=grid, uncertainty=unc, checks=checks, outputs=outputs,
                     guidelines=top["guidelines"], sensitivity=top["sensitivity"], alternatives=top["alternatives"],
-                    economics=top["economics"], files=tuple(dict.fromkeys([*files, *inputs])), raw=d)
+                    economics=top["economics"], files=all_files, raw=d, file_hashes=_hashes(all_files, path))
