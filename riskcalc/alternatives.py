@@ -57,7 +57,8 @@ import numpy as np
 
 from . import economics as ec
 
-from .assess import CAUTION_TEXT, _grid_breakpoints, _plain, weighted_summary
+from .assess import CAUTION_TEXT, _grid_breakpoints, weighted_summary
+from .io import to_plain as _plain
 from .errors import InputError
 from .hazard import read_ensemble
 from .hazard.curves import mode_curve, quantity_grid
@@ -774,7 +775,7 @@ def alternatives_table(c: Comparison):
             "bcr_mode": bcr["mode"],
             "afp_reduction_per_yr": f["afp_reduction_per_yr"]["predictive"],
             "all_reduction_lives_per_yr": f["all_reduction_lives_per_yr"]["predictive"],
-            f"cost_per_life_saved_{cur}": f["cost_per_statistical_life_saved"]["predictive"],
+            f"net_cost_per_life_saved_{cur}": f["cost_per_statistical_life_saved"]["predictive"],
             "afp_base_year_per_yr": f["fn_point"]["afp_per_yr"],
             "fn_point_n_lives": f["fn_point"]["n_lives"],
             "rank_predictive": c.ranking["predictive"].index(name) + 1,
@@ -866,7 +867,7 @@ def _table_rows(c: Comparison):
     cur = c.scenario.units["currency"]
     header = ["alternative", f"annualized cost [{cur}/yr]", f"benefit [{cur}/yr]", "benefit 5–95 %",
               f"benefit, mode curve [{cur}/yr]", "pred/mode", f"net benefit [{cur}/yr]", "BCR (5–95 %)",
-              "AFP reduction [1/yr]", "ALL reduction [lives/yr]", f"cost per life saved [{cur}]", "rank pred/mode"]
+              "AFP reduction [1/yr]", "ALL reduction [lives/yr]", f"net cost per statistical life saved [{cur}] (a)", "rank pred/mode"]
     rows = []
     for n in c.ranking["predictive"]:
         f = c.figures[n]
@@ -879,6 +880,10 @@ def _table_rows(c: Comparison):
                      _money(f["cost_per_statistical_life_saved"]["predictive"]),
                      f"{c.ranking['predictive'].index(n) + 1} / {c.ranking['mode'].index(n) + 1}"])
     return header, rows
+
+
+_NET_COST_NOTE = ("(a) Net cost per statistical life saved = (annualized cost − expected annual benefit) / reduction "
+                  "in annualized life loss; a negative value means the economic benefits alone exceed the cost.")
 
 
 def _ranking_sentence(c: Comparison) -> str:
@@ -928,7 +933,7 @@ def memo_section(c: Comparison) -> dict:
                + CAUTION_TEXT)
     md = [intro, "", "| " + " | ".join(header) + " |", "|" + "---|" * len(header)]
     md += ["| " + " | ".join(r) + " |" for r in rows]
-    md += ["", _ranking_sentence(c), "", "f-N points (base year, predictive):", ""]
+    md += ["", _NET_COST_NOTE, "", _ranking_sentence(c), "", "f-N points (base year, predictive):", ""]
     md += [f"- {t}" for t in fn_lines]
     if c.notes:
         md += ["", "Notes:", ""] + [f"- {t}" for t in c.notes]
@@ -937,7 +942,7 @@ def memo_section(c: Comparison) -> dict:
     h = [f"<section class=\"alternatives\"><h2>{e('Alternatives and economics')}</h2>", f"<p>{e(intro)}</p>",
          "<table><thead><tr>" + "".join(f"<th>{e(x)}</th>" for x in header) + "</tr></thead><tbody>"]
     h += ["<tr>" + "".join(f"<td>{e(x)}</td>" for x in r) + "</tr>" for r in rows]
-    h += ["</tbody></table>", f"<p>{e(_ranking_sentence(c))}</p>",
+    h += ["</tbody></table>", f"<p class=\"note\">{e(_NET_COST_NOTE)}</p>", f"<p>{e(_ranking_sentence(c))}</p>",
           "<ul>" + "".join(f"<li>{e(t)}</li>" for t in fn_lines) + "</ul>"]
     if c.notes:
         h.append("<ul>" + "".join(f"<li>{e(t)}</li>" for t in c.notes) + "</ul>")

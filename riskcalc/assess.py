@@ -16,10 +16,11 @@ import numpy as np
 
 from . import __version__
 from .errors import InputError
-from .hazard.curves import hazard_curves, mode_curve, quantity_grid, weighted_quantile
-from .integrate import aep_band_contributions, cell_masses, cell_points, chance_in_years, fn_curve, fn_levels
+from .hazard.curves import hazard_curves, invert_on_paper, mode_curve, quantity_grid, weighted_quantile
+from .integrate import aep_band_contributions, cell_masses, cell_points, chance_in_years, fn_levels
 from .io import sha256
-from .propagate import Propagation, cell_integrands_life_loss, default_workers, propagate
+from .io import to_plain as _plain
+from .propagate import Propagation, cell_fn_matrix, default_workers, propagate
 
 __all__ = ["RiskResult", "assess", "HEADLINES", "weighted_summary"]
 
@@ -119,21 +120,6 @@ CAUTION_TEXT = ("Screening support for qualified, licensed engineers; it does no
                 "considered.")
 
 
-def _plain(o):
-    if isinstance(o, dict):
-        return {str(k): _plain(v) for k, v in o.items()}
-    if isinstance(o, (list, tuple)):
-        return [_plain(v) for v in o]
-    if isinstance(o, (np.floating, float)):
-        v = float(o)
-        return v if np.isfinite(v) else None
-    if isinstance(o, (np.integer,)):
-        return int(o)
-    if isinstance(o, np.ndarray):
-        return _plain(o.tolist())
-    return o
-
-
 def _grid_breakpoints(model, variable):
     """Response breakpoints (table stages, fragility medians) as grid quantities."""
     pts = [model.consequences.stage]
@@ -181,10 +167,9 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     k = int(draws_per_realization or sc.uncertainty["draws_per_realization"])
     if not model.has_knowledge_uncertainty:
         k = 1
-    nw = sc.uncertainty.get("workers") or workers or default_workers()
+    nw = workers or sc.uncertainty.get("workers") or default_workers()
     pts = cell_points(grid, log_spacing, "midpoint")
-    ll_cells = cell_integrands_life_loss(model, grid, rule, log_spacing)
-    levels = fn_levels(max(1.0, float(ll_cells.max())))
+    levels = fn_levels(max(1.0, model.max_incremental_life_loss(pts)))
     prop = propagate(ens, model, grid, seed=sc.seed, draws_per_realization=k, rule=rule, log_spacing=log_spacing,
                      workers=nw, fn_levels=levels, progress=progress)
     curves = hazard_curves(ens, grid, level=sc.credible_level, aep_max=g["aep_max"], aep_min=g["aep_min"],
@@ -207,9 +192,11 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
         ens_stats, se = weighted_summary(prop.column(n), prop.weights)
         pv, mv = v_pred[n], v_mode[n]
         ratio = pv / mv if mv > 0 else (float("inf") if pv > 0 else float("nan"))
+        pn = float(v_pred_measure[names.index(n)])
+        ratio_h = pn / mv if mv > 0 else (float("inf") if pn > 0 else float("nan"))
         headline[key] = {"predictive": pv, "mode": mv, "median_curve": v_med[n], "ensemble": ens_stats,
                          "mc_standard_error": se, "ratio_predictive_to_mode": ratio,
-                         "predictive_nominal_response": float(v_pred_measure[names.index(n)])}
+                         "predictive_nominal_response": pn, "ratio_hazard_only": ratio_h}
         if pv > 0 and se / pv > REL_SE_WARN:
             warnings.append(f"{key.replace('_', ' ')}: the Monte Carlo standard error is {100 * se / pv:.1f} % of "
                             f"the predictive value; the ensemble ({ens.size} realizations) is too small for the "
@@ -218,11 +205,10 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     if ess < 200 * (1 - 1e-9):
         warnings.append(f"the ensemble's effective size is {ess:.0f} realizations; percentiles and the predictive "
                         "tail are uncertain below about 200")
-    # F-N
+    # F-N: nominal response, incremental life loss, natural variability folded in
     pf_cells = G[:, names.index("afp")]
-    fn = {"levels": levels, "predictive": fn_curve(m_pred, pf_cells, ll_cells, levels),
-          "mode": fn_curve(m_mode, pf_cells, ll_cells, levels),
-          "median_curve": fn_curve(m_med, pf_cells, ll_cells, levels)}
+    FN = cell_fn_matrix(model, grid, levels, rule, log_spacing)
+    fn = {"levels": levels, "predictive": m_pred @ FN, "mode": m_mode @ FN, "median_curve": m_med @ FN}
     if prop.fn_per_realization is not None:
         fn_q = weighted_quantile(prop.fn_per_realization, ens.weights, [0.05, 0.5, 0.95])
         fn.update(p05=fn_q[0], p50=fn_q[1], p95=fn_q[2])
@@ -269,8 +255,33 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     if model.has_knowledge_uncertainty:
         notes.append(f"knowledge uncertainty in the response is sampled: {k} draw(s) per realization; the predictive "
                      "figures are the means over all draws, the mode and median curves use the nominal response")
-    notes.append("linearity: the predictive result equals the weighted mean of the per-realization results "
-                 f"(checked: AFP {v_pred_measure[0]:.6g} on the predictive masses)")
+    nom_mean = ens.weights @ prop.nominal_values
+    lin = float(np.max(np.abs(nom_mean - v_pred_measure) / np.maximum(np.abs(v_pred_measure), 1e-300)))
+    notes.append("linearity: the risk on the predictive masses equals the weighted mean of the per-realization "
+                 f"risks (nominal response; largest relative difference {lin:.1e})")
+    notes.append("F-N uses the nominal response and the incremental life loss (given breach minus given no "
+                 "breach), with natural variability of stage folded in")
+    # risk already present at the bottom of the grid: the mass below it is counted as carrying none
+    below = float(1 - prop.aep_predictive[0])
+    for key, n, _ in HEADLINES:
+        tot = v_pred_measure[names.index(n)]
+        g0 = G[0, names.index(n)]
+        if tot > 0 and g0 > 0.01 * G[:, names.index(n)].max():
+            warnings.append(f"the {key.replace('_', ' ')} integrand is already {g0:.3g} at the bottom of the grid, "
+                            f"where the response should be inactive; the {below:.2g} of annual peaks below the grid "
+                            f"are counted as carrying no risk (up to {100 * below * g0 / tot:.2g} % more); check the "
+                            "response tables and the hazard variable, or raise grid.aep_max")
+    if np.all(pf_cells > 0.999):
+        warnings.append("the system failure probability is above 0.999 over the whole grid: the structure fails "
+                        "for every flood considered; check the fragility curves, stage datum and hazard variable")
+    # a mode curve far from the ensemble (explicit parameters, say)
+    x_mode = float(curves.mode.quantile(np.array([sc.checks["design_aep"]]))[0, 0])
+    lo_b, hi_b = (float(invert_on_paper(q, curves.aeps, [sc.checks["design_aep"]], curves.log_scale)[0])
+                  for q in (curves.quantity_lower, curves.quantity_upper))
+    if not lo_b <= x_mode <= hi_b:
+        warnings.append(f"the mode curve's {sc.checks['design_aep']:g}-AEP {ens.quantity} ({x_mode:.4g}) lies outside "
+                        f"the ensemble's {round(100 * sc.credible_level)} % band ({lo_b:.4g} to {hi_b:.4g}); check the "
+                        "explicit mode parameters")
     provenance = {"riskcalc_version": __version__, "date": _dt.date.today().isoformat(), "seed": sc.seed,
                   "python": platform.python_version(), "scenario": str(sc.path.name),
                   "inputs": dict(sc.file_hashes) or {str(p.name): sha256(p) for p in sc.files},

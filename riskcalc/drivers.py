@@ -87,6 +87,7 @@ import pandas as pd
 from scipy import special as sc
 
 from .errors import InputError
+from .io import to_plain as _plain
 from .hazard.curves import CHUNK_BYTES, row_chunks
 from .integrate import cell_masses, cell_points
 from .model import ResponseDraws
@@ -830,20 +831,6 @@ def gap_by_source(result, driver: RiskDriver, factors=None, *, seed: int = 1, sa
 # --------------------------------------------------------------------------
 # the report
 # --------------------------------------------------------------------------
-def _plain(o):
-    if isinstance(o, dict):
-        return {str(k): _plain(v) for k, v in o.items()}
-    if isinstance(o, (list, tuple)):
-        return [_plain(v) for v in o]
-    if isinstance(o, (float, np.floating)):
-        return float(o) if math.isfinite(float(o)) else None
-    if isinstance(o, (np.integer,)):
-        return int(o)
-    if isinstance(o, np.ndarray):
-        return _plain(o.tolist())
-    return o
-
-
 @dataclass(frozen=True, eq=False)
 class SensitivityReport:
     """Sobol' indices of AFP, EAD and ALL, the gap by source, and optionally Morris statistics.

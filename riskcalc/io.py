@@ -275,6 +275,21 @@ def atomic_output_dir(out, *, overwrite: bool = False):
         shutil.rmtree(old, ignore_errors=True)
 
 
+def to_plain(o):
+    """Numbers, arrays and containers as plain JSON values; non-finite floats become None."""
+    if isinstance(o, dict):
+        return {str(k): to_plain(v) for k, v in o.items()}
+    if isinstance(o, (list, tuple)):
+        return [to_plain(v) for v in o]
+    if isinstance(o, (float, np.floating)):
+        return float(o) if math.isfinite(float(o)) else None
+    if isinstance(o, np.integer):
+        return int(o)
+    if isinstance(o, np.ndarray):
+        return to_plain(o.tolist())
+    return o
+
+
 def write_json(path, obj) -> None:
     """Write JSON with sorted keys and a trailing newline (byte-stable for the same input)."""
     Path(path).write_text(json.dumps(obj, indent=2, sort_keys=True, allow_nan=False) + "\n", encoding="utf-8")

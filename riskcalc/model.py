@@ -170,6 +170,36 @@ class RiskModel:
             out = np.stack([np.broadcast_to(vals[k], h.shape) for k in names], axis=-1)
         return out[0] if single else out
 
+    def _stages_and_weights(self, x):
+        """Stages (Q, n) at the quadrature nodes of natural variability and their weights (n,)."""
+        x = np.asarray(x, float)
+        h0 = self.stage_at(x)
+        if self.natural is not None and self.natural.active:
+            z, w = gauss_hermite_normal(self.hermite_nodes)
+            sd = self.natural.at(x) if self.rating is not None else self.natural.at(np.maximum(x, 1e-300))
+            return h0[:, None] + sd[:, None] * z[None, :], w
+        return h0[:, None], np.ones(1)
+
+    def fn_integrand(self, x, levels) -> np.ndarray:
+        """F-N integrand at quantities x (Q,) and life-loss levels N (L,), nominal response: (Q, L).
+
+        E_ε[P_f(h + ε) 1[L_inc(h + ε) >= N]] with L_inc = life loss given breach minus given no breach
+        (the life loss the failure causes), over the natural variability of stage.
+        """
+        h, w = self._stages_and_weights(x)
+        d = self.nominal(1)
+        v = self._at_stage(h, d.mode_shift[:, 0], d.mode_spread[:, 0], 1.0, 1.0)
+        _, _, lb, ln = self.consequences.at(h)
+        inc = (lb - ln) * self.consequences.life_loss_multiplier.nominal
+        ind = inc[:, :, None] >= np.asarray(levels, float)[None, None, :]
+        return np.einsum("qn,qnl,n->ql", v["afp"], ind, w)
+
+    def max_incremental_life_loss(self, x) -> float:
+        """Largest nominal incremental life loss at quantities x (over the quadrature nodes)."""
+        h, _ = self._stages_and_weights(x)
+        _, _, lb, ln = self.consequences.at(h)
+        return float(np.max((lb - ln) * self.consequences.life_loss_multiplier.nominal, initial=0.0))
+
     def consequence_curves_at(self, x):
         """Nominal consequences and P_f at quantities x (for tables and figures): dict of (Q,) arrays."""
         h = self.stage_at(np.asarray(x, float))

@@ -23,7 +23,7 @@ import numpy as np
 from .hazard.curves import CHUNK_BYTES
 from .integrate import cell_masses, cell_points, fn_curve
 
-__all__ = ["Propagation", "propagate", "cell_integrands", "chunk_rows_for", "default_workers"]
+__all__ = ["Propagation", "propagate", "cell_integrands", "cell_fn_matrix", "chunk_rows_for", "default_workers"]
 
 
 def default_workers() -> int:
@@ -52,6 +52,9 @@ class Propagation:
     fn_levels : ndarray (L,)
     fn_per_realization : ndarray (R, L) or None
         F-N of every realization (nominal response), when it fits in memory.
+    nominal_values : ndarray (R, K)
+        Risk of every realization with the nominal response (equals ``values`` without knowledge
+        uncertainty); the linearity identity holds for these.
     n_chunks : int
     """
 
@@ -66,6 +69,7 @@ class Propagation:
     fn_per_realization: np.ndarray | None
     n_chunks: int
     draws_per_realization: int
+    nominal_values: np.ndarray | None = None
 
     def column(self, name):
         return self.values[:, self.names.index(name)]
@@ -127,19 +131,18 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
     chunks = [slice(a, min(R, a + step)) for a in range(0, R, step)]
     ss = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
     streams = ss.spawn(len(chunks))
-    pf_nominal = G[:, names.index("afp")]
-    ll_nominal = cell_integrands_life_loss(model, grid, rule, log_spacing)
     levels = np.asarray(fn_levels, float) if fn_levels is not None else None
     keep_fn = levels is not None and R * levels.size <= 2e7
-    fn_matrix = (pf_nominal[:, None] * (ll_nominal[:, None] >= levels[None, :])) if keep_fn else None
+    fn_matrix = cell_fn_matrix(model, grid, levels, rule, log_spacing) if keep_fn else None
 
     def work(i):
         rows = chunks[i]
         m = cell_masses(ens.aep(grid, rows))
         mbar = ens.weights[rows] @ m
         fn = m @ fn_matrix if keep_fn else None
+        nominal = m @ G  # (c, K): per-realization risks with the nominal response
         if not knowledge:
-            vals = (m @ G)[:, None, :]  # (c, 1, K)
+            vals = nominal[:, None, :]  # (c, 1, K)
         else:
             rng = np.random.default_rng(streams[i])
             c = m.shape[0]
@@ -148,7 +151,7 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
                 draws = model.sample(rng, c)
                 Gd = cell_integrands(model, grid, rule, log_spacing, draws)  # (c, Q, K)
                 vals[:, rep, :] = np.einsum("cq,cqk->ck", m, Gd)
-        return mbar, vals, fn
+        return mbar, vals, fn, nominal
 
     n_workers = default_workers() if workers is None else max(1, int(workers))
     results = [None] * len(chunks)
@@ -168,21 +171,21 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
         mbar += r[0]
     vals = np.concatenate([r[1] for r in results], axis=0) if results else np.empty((0, 1, K))
     fn = np.concatenate([r[2] for r in results], axis=0) if keep_fn else None
+    nominal = np.concatenate([r[3] for r in results], axis=0) if results else np.empty((0, K))
     kk = vals.shape[1]
     values = vals.reshape(R * kk, K)
     weights = np.repeat(ens.weights / kk, kk)
     realization = np.repeat(np.arange(R), kk)
-    pbar = np.concatenate([np.cumsum(mbar[::-1])[::-1]])  # p̄(x_j) = Σ_{i>=j} m̄_i
+    pbar = np.cumsum(mbar[::-1])[::-1]  # p̄(x_j) = Σ_{i>=j} m̄_i
     return Propagation(names=names, values=values, weights=weights, realization=realization, aep_predictive=pbar,
                        masses_predictive=mbar, integrands=G, fn_levels=levels if levels is not None else np.array([]),
-                       fn_per_realization=fn, n_chunks=len(chunks), draws_per_realization=kk)
+                       fn_per_realization=fn, n_chunks=len(chunks), draws_per_realization=kk,
+                       nominal_values=nominal)
 
 
-def cell_integrands_life_loss(model, grid, rule="midpoint", log_spacing=True):
-    """Nominal life loss given failure at each cell (for F-N)."""
+def cell_fn_matrix(model, grid, levels, rule="midpoint", log_spacing=True) -> np.ndarray:
+    """F-N integrand per cell (Q, L): nominal response, incremental life loss, natural variability folded in."""
     pts = cell_points(grid, log_spacing, rule)
-    if rule != "midpoint":
-        pts = 0.5 * (pts[0] + pts[1]) if not log_spacing else np.sqrt(pts[0] * pts[1])
-    h = model.stage_at(pts)
-    lb = model.consequences.at(h)[2] * model.consequences.life_loss_multiplier.nominal
-    return lb
+    if rule == "midpoint":
+        return model.fn_integrand(pts, levels)
+    return 0.5 * (model.fn_integrand(pts[0], levels) + model.fn_integrand(pts[1], levels))

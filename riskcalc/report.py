@@ -515,6 +515,11 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
             f"{_once_in(m['aep_on_predictive'])} years on the predictive curve, not once in {_once_in(p_d)}: "
             f"the chance of at least one exceedance in {years} years is "
             f"{_pct(m.get('chance_in_years_predictive', 0))}, not {_pct(m.get('chance_in_years_nominal', 0))}.")))
+    r_h = afp.get("ratio_hazard_only")
+    if r_h is not None and r_afp is not None and abs(r_h - r_afp) > 1e-9 * abs(r_afp):
+        blocks.append(Block("p", f"Of the AFP ratio {_ratio(r_afp)}, the hazard ensemble alone (nominal response) "
+                                 f"gives {_ratio(r_h)}; the rest comes from the sampled uncertainty of the response "
+                                 "and consequences, which the mode-curve analysis leaves out as well."))
     blocks.append(Block("p", "Linearity: the predictive result is the mean of the per-realization results (the "
                              "weighted mean over the ensemble), which is why the risk is integrated against the "
                              "predictive (mean) hazard curve and not the mode curve."))

@@ -406,6 +406,9 @@ def load_scenario(path) -> Scenario:
                          path, key="uncertainty.workers")
     checks = _check("checks", top["checks"], path, "checks.")
     _probability(checks["design_aep"], path, "checks.design_aep")
+    if not grid["aep_min"] <= checks["design_aep"] <= grid["aep_max"]:
+        raise InputError(f"{checks['design_aep']} is outside the grid's AEP range [{grid['aep_min']}, "
+                         f"{grid['aep_max']}]", path, key="checks.design_aep")
     if checks["years"] < 1:
         raise InputError("expected a number of years >= 1", path, key="checks.years")
     outputs = _check("outputs", top["outputs"], path, "outputs.")

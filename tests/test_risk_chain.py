@@ -199,3 +199,51 @@ def test_stage_hazard_without_rating(scenario_factory):
     s = res.summary()
     assert 0 < s["annual_failure_probability"]["predictive"] < 1
     assert "bottom_of_grid_stage" in s["truncation"]
+
+
+def test_fn_uses_incremental_life_loss_and_natural_variability():
+    # F(N) = sum_j m_j E_eps[P_f 1[L_breach - L_no_breach >= N]] (design; incremental life loss as the
+    # societal-risk lines use it). Without natural variability, a certain failure at stage 5 with 10 lives
+    # given breach and 4 without gives F(N) = p for N <= 6 and 0 above.
+    stage = np.array([0.0, 10.0])
+    cons = ConsequenceCurves(stage, np.zeros(2), np.zeros(2), np.array([10.0, 10.0]), np.array([4.0, 4.0]))
+    always = FragilityCurve("table", stage=np.array([0.0, 10.0]), probability=np.array([1.0, 1.0]))
+    model = RiskModel(modes=(FailureMode("m", (always,)),), consequences=cons)
+    F = model.fn_integrand(np.array([5.0]), np.array([1.0, 6.0, 6.5]))
+    np.testing.assert_allclose(F, [[1.0, 1.0, 0.0]])
+    # with stage scatter and a normal fragility, P_f is averaged over the same nodes as the indicator
+    frag = FragilityCurve("normal", median=5.0, spread=0.4)
+    m2 = RiskModel(modes=(FailureMode("m", (frag,)),), consequences=cons, natural=StageSpread(0.3), hermite_nodes=24)
+    np.testing.assert_allclose(m2.fn_integrand(np.array([5.0]), np.array([1.0]))[0, 0], 0.5, atol=1e-12)
+
+
+def test_linearity_note_with_knowledge_uncertainty(scenario_factory):
+    path = scenario_factory(folder="lin-k", toml_extra="[uncertainty]\ndraws_per_realization = 2\n")
+    path.write_text(path.read_text().replace('[rating]\ntable = "rating.csv"\n',
+                                             '[rating]\ntable = "rating.csv"\nknowledge_sd = 0.2\n'))
+    res = assess(load_scenario(path))
+    prop = res.propagation
+    nominal = res.scenario.ensemble.weights @ prop.nominal_values
+    np.testing.assert_allclose(nominal, prop.masses_predictive @ prop.integrands, rtol=1e-10)
+    note = next(n for n in res.notes if n.startswith("linearity"))
+    assert float(note.rsplit(" ", 1)[1].rstrip(")")) < 1e-10
+
+
+def test_warns_when_risk_is_already_present_at_the_bottom_of_the_grid(scenario_factory):
+    # a discharge ensemble read as stage: every stage lies far above the response tables, so the structure
+    # fails for every flood on the grid; the run must say so rather than report AFP ~ 1 quietly
+    path = scenario_factory(folder="mix", rating=None, variable="stage")
+    res = assess(load_scenario(path))
+    assert any("bottom of the grid" in w for w in res.warnings)
+    assert any("whole grid" in w for w in res.warnings)
+    # the well-posed version of the same scenario warns about neither
+    res = assess(load_scenario(scenario_factory(folder="nomix")))
+    assert not any("bottom of the grid" in w or "whole grid" in w for w in res.warnings)
+
+
+def test_design_aep_outside_grid_is_refused(scenario_factory):
+    from riskcalc.errors import InputError
+
+    path = scenario_factory(folder="dz", toml_extra="[checks]\ndesign_aep = 1e-9\n")
+    with pytest.raises(InputError, match=r"key 'checks.design_aep': 1e-09 is outside the grid's AEP range"):
+        load_scenario(path)

@@ -31,11 +31,15 @@ def headline_lines(summary: dict) -> list[str]:
         ratio = h["ratio_predictive_to_mode"]
         lines.append(f"{label:36}{_num(h['predictive'], kind):>13}{_num(h['mode'], kind):>13}"
                      f"{_num(h['median_curve'], kind):>13}{band:>26}{'' if ratio is None else f'{ratio:.2f}':>11}")
+    h = summary["annual_failure_probability"]
+    if h.get("ratio_hazard_only") is not None and h["ratio_predictive_to_mode"] is not None and \
+            abs(h["ratio_hazard_only"] - h["ratio_predictive_to_mode"]) > 1e-9 * abs(h["ratio_predictive_to_mode"]):
+        lines.append(f"AFP pred/mode with the hazard ensemble alone (nominal response): {h['ratio_hazard_only']:.2f}")
     c = summary["mode_understatement"]["crest_check"]
     m = c["mode"]
     if m["aep_on_predictive"]:
         lines.append(
-            f"A crest at the mode curve's {c['design_aep']:g}-AEP stage ({m['stage']:.2f}) is exceeded with AEP "
+            f"A crest set at the mode curve's {c['design_aep']:g}-AEP stage ({m['stage']:.2f}) would be exceeded with AEP "
             f"{m['aep_on_predictive']:.3g} on the predictive curve (about once in {1 / m['aep_on_predictive']:,.0f} "
             f"years, not once in {1 / c['design_aep']:,.0f}); chance of at least one exceedance in {c['years']} years: "
             f"{100 * m['chance_in_years_predictive']:.0f} %, not {100 * m['chance_in_years_nominal']:.0f} %.")

@@ -29,6 +29,7 @@ import numpy as np
 from scipy import special as sc
 
 from .ensemble import HazardEnsemble
+from .ensemble import _paper_z as _paper
 from .families import get_family
 
 __all__ = [
@@ -98,8 +99,6 @@ def weighted_quantile(values, weights, levels):
     return out
 
 
-def _paper(p):
-    return -sc.ndtri(np.asarray(p, dtype=float))
 
 
 def invert_on_paper(x, aep, target_aep, log_scale=True):

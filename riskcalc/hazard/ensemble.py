@@ -215,8 +215,6 @@ def read_parameter_ensemble(path, family: str, *, quantity="discharge", unit=Non
     lp = table.numbers("log_posterior") if table.has("log_posterior") else None
     labels = tuple(table.text("realization")) if table.has("realization") else tuple(
         str(i + 1) for i in range(len(table)))
-    if fam.log_quantity or quantity == "discharge":
-        pass
     return HazardEnsemble(family=fam.name, weights=w, params=params, log_posterior=lp,
                           labels=labels, quantity=quantity, unit=unit, source=str(path))
 
