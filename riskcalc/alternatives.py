@@ -57,11 +57,11 @@ import numpy as np
 
 from . import economics as ec
 
-from .assess import CAUTION_TEXT, _grid_breakpoints, weighted_summary
+from .assess import CAUTION_TEXT, build_grid, weighted_summary
 from .io import to_plain as _plain
 from .errors import InputError
 from .hazard import read_ensemble
-from .hazard.curves import mode_curve, quantity_grid
+from .hazard.curves import mode_curve
 from .hazard.families import FAMILIES
 from .integrate import cell_masses
 from .propagate import cell_integrands, chunk_rows_for, propagate
@@ -468,15 +468,7 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
     grids, modes = {}, {}
     for year, (ens, mode_params) in ensembles.items():
         mode_one, _ = mode_curve(ens, mode_params or None)
-        bps = np.concatenate([_grid_breakpoints(m, ens.quantity) for m in models[year].values()])
-        try:
-            grid = quantity_grid(ens, g["aep_max"], g["aep_min"], int(g["points"]), breakpoints=bps,
-                                 extra_curves=(mode_one,))
-        except ValueError as exc:
-            raise InputError(str(exc), ens.source) from None
-        for name, m in models[year].items():
-            if m.rating is not None:
-                m.rating.check_covers(grid[0], grid[-1], where="rating.extrapolation")
+        grid = build_grid(ens, tuple(models[year].values()), g, mode_params)
         grids[year] = grid
         modes[year] = cell_masses(mode_one.aep(grid)[0])
     rows = min(chunk_rows_for(m, grids[y].size) for y, ms in models.items() for m in ms.values())

@@ -133,6 +133,30 @@ def _grid_breakpoints(model, variable):
     return np.concatenate([r.discharge, r.discharge_at(h[inside])])
 
 
+def build_grid(ens, models, grid_settings, mode_params=None, points=None):
+    """The quantity grid of a run: spans the ensemble and its mode curve, holds every model's breakpoints,
+    and is checked against each model's rating table.
+
+    Raises
+    ------
+    InputError
+        When the ensemble spans no range, or a rating table under ``extrapolation = "refuse"`` does not
+        cover the grid.
+    """
+    g = grid_settings
+    mode_one, _ = mode_curve(ens, mode_params or None)
+    bps = np.concatenate([_grid_breakpoints(m, ens.quantity) for m in models])
+    try:
+        grid = quantity_grid(ens, g["aep_max"], g["aep_min"], int(points or g["points"]), breakpoints=bps,
+                             extra_curves=(mode_one,))
+    except ValueError as exc:
+        raise InputError(str(exc), ens.source) from None
+    for m in models:
+        if m.rating is not None:
+            m.rating.check_covers(grid[0], grid[-1], where="rating.extrapolation")
+    return grid
+
+
 def assess(scenario, *, workers=None, progress=None, draws_per_realization=None, grid_points=None) -> RiskResult:
     """Run the whole risk chain for a :class:`~riskcalc.scenario.Scenario`.
 
@@ -154,14 +178,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     ens, model = sc.ensemble, sc.model
     g = sc.grid
     npts = int(grid_points or g["points"])
-    mode_one, _ = mode_curve(ens, sc.mode_params or None)
-    try:
-        grid = quantity_grid(ens, g["aep_max"], g["aep_min"], npts,
-                             breakpoints=_grid_breakpoints(model, ens.quantity), extra_curves=(mode_one,))
-    except ValueError as exc:
-        raise InputError(str(exc), ens.source) from None
-    if model.rating is not None:
-        model.rating.check_covers(grid[0], grid[-1], where="rating.extrapolation")
+    grid = build_grid(ens, (model,), g, sc.mode_params, points=npts)
     log_spacing = ens.log_scale
     rule = g["rule"]
     k = int(draws_per_realization or sc.uncertainty["draws_per_realization"])

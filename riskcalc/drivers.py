@@ -76,7 +76,6 @@ References
 from __future__ import annotations
 
 import math
-import operator
 import time
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace

@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .consequences import ConsequenceCurves
-from .response import FailureMode, RatingCurve, StageSpread, combine_independent, gauss_hermite_normal
+from .response import RatingCurve, StageSpread, combine_independent, gauss_hermite_normal
 
 __all__ = ["RiskModel", "ResponseDraws", "OUTPUTS"]
 

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .hazard.curves import CHUNK_BYTES
-from .integrate import cell_masses, cell_points, fn_curve
+from .integrate import cell_masses, cell_points
 
 __all__ = ["Propagation", "propagate", "cell_integrands", "cell_fn_matrix", "chunk_rows_for", "default_workers"]
 

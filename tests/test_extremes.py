@@ -19,7 +19,6 @@ from scipy import special as sc
 from riskcalc.assess import assess
 from riskcalc.consequences import ConsequenceCurves
 from riskcalc.hazard.ensemble import HazardEnsemble
-from riskcalc.hazard.families import lp3_aep
 from riskcalc.io import write_json
 from riskcalc.model import RiskModel
 from riskcalc.propagate import propagate
@@ -52,7 +51,7 @@ def run(factory, tmp_path, folder, **kw):
 
 
 def table_mode(p_lo, p_hi):
-    return f"""
+    return """
     [[failure_modes]]
     name = "breach"
       [[failure_modes.nodes]]

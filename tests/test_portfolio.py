@@ -1,7 +1,6 @@
 """Portfolios: serial and a local dask.distributed cluster give the same numbers; failures are reported."""
 
 import json
-import logging
 
 import pandas as pd
 import pytest

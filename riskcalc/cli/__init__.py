@@ -7,7 +7,6 @@ line on stderr and exits with status 2.
 from __future__ import annotations
 
 import sys
-from pathlib import Path
 
 import typer
 

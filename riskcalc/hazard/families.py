@@ -144,36 +144,6 @@ def _pearson3_sf_std(z, g):
     return np.clip(out, 0.0, 1.0)
 
 
-def _pearson3_sf_rows(z, g):
-    """Row-split version for parameters ``(R, 1)`` and a grid ``(R, Q)`` or ``(Q,)``.
-
-    Splitting the rows by the sign of the skew, rather than masking every
-    element, lets each call to the incomplete gamma function run on one
-    contiguous block.
-    """
-    g = _col(g)
-    z = _col(z)
-    if g.ndim != 2 or g.shape[1] != 1:
-        return _pearson3_sf_std(z, g)
-    zb = np.broadcast_to(z, np.broadcast_shapes(z.shape, g.shape))
-    out = np.empty(zb.shape)
-    gr = g[:, 0]
-    small = np.abs(gr) < SMALL_SKEW
-    for rows, fn in ((np.flatnonzero((gr > 0) & ~small), sc.gammaincc),
-                     (np.flatnonzero((gr < 0) & ~small), sc.gammainc)):
-        if rows.size == 0:
-            continue
-        gm = gr[rows, None]
-        alpha = 4.0 / (gm * gm)
-        t = alpha + (2.0 / gm) * zb[rows]
-        np.maximum(t, 0.0, out=t)
-        out[rows] = fn(alpha, t)
-    rows = np.flatnonzero(small)
-    if rows.size:
-        out[rows] = _pearson3_sf_std(zb[rows], gr[rows, None])
-    return out
-
-
 def _small_skew_isf(p, g):
     """Frequency factor for small skew: Cornish-Fisher start, then Newton steps on log sf (Temme)."""
     zn = -sc.ndtri(p)
@@ -246,7 +216,7 @@ def lp3_aep(x, mean, sd, skew):
     if y.ndim == 1 and mean.ndim == sd.ndim == skew.ndim == 2 and mean.shape[1] == sd.shape[1] == skew.shape[1] == 1:
         return _lp3_sf_grid(y, mean[:, 0], sd[:, 0], skew[:, 0])
     z = (y - mean) / sd
-    return _pearson3_sf_rows(z, skew)
+    return _pearson3_sf_std(z, skew)
 
 
 def _lp3_sf_grid(y, mean, sd, skew):
