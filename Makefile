@@ -20,6 +20,7 @@ test: $(BIN)/.installed
 
 bench: $(BIN)/.installed
 	$(BIN)/python benchmarks/bench_hazard.py
+	$(BIN)/python benchmarks/bench_chain.py
 
 clean:
 	rm -rf $(VENV) out

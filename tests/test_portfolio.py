@@ -63,3 +63,18 @@ def test_collect_from_folder_and_list(tmp_path, three_scenarios):
     with pytest.raises(InputError, match="folder holds no scenario"):
         (tmp_path / "empty").mkdir()
         collect_scenarios([tmp_path / "empty"])
+
+
+def test_portfolio_command_end_to_end(tmp_path, three_scenarios, capsys):
+    from riskcalc.cli import main
+
+    out = tmp_path / "cli"
+    with pytest.raises(SystemExit) as info:
+        main(["portfolio", *map(str, three_scenarios), "--out", str(out), "--quiet"])
+    assert info.value.code == 0
+    assert "3 of 3 scenarios ran" in capsys.readouterr().out
+    table = pd.read_csv(out / "portfolio.csv")
+    assert list(table["status"]) == ["ok"] * 3
+    with pytest.raises(SystemExit) as info:
+        main(["portfolio", str(tmp_path / "missing.toml"), "--out", str(tmp_path / "never")])
+    assert info.value.code == 2 and not (tmp_path / "never").exists()
