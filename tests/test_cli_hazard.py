@@ -71,3 +71,10 @@ def test_installed_command_help_and_error():
                        capture_output=True, text=True)
     assert r.returncode == 2 and r.stderr.startswith("riskcalc: error: missing.csv: file not found")
     assert "Traceback" not in r.stderr
+
+
+@pytest.mark.parametrize("argv", [["run"], ["run", "x.toml", "--bogus"], ["frobnicate"], ["hazard", "x.csv"]])
+def test_usage_errors_exit_2_without_traceback(argv, capsys):
+    code, _, err = run(argv, capsys)
+    assert code == 2
+    assert "Traceback" not in err and "Error" in err

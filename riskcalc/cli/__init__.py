@@ -51,10 +51,9 @@ def main(argv=None):
     except KeyboardInterrupt:
         typer.echo("riskcalc: interrupted; no results were written", err=True)
         sys.exit(130)
-    except Exception as exc:  # click usage errors
-        import click
-
-        if isinstance(exc, click.ClickException):
+    except Exception as exc:
+        # usage errors (missing or unknown options) from click, or the copy of click that typer vendors
+        if hasattr(exc, "show") and hasattr(exc, "exit_code") and type(exc).__module__.endswith("exceptions"):
             exc.show()
             sys.exit(2)
         raise

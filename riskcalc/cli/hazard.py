@@ -28,7 +28,7 @@ def hazard(
 
     Example:
 
-        riskcalc hazard scenarios/kestrel/ensemble_lp3.csv --family lp3 --unit m3s --out out/hazard
+        riskcalc hazard scenarios/amberlow_levee/ensemble_lp3.csv --family lp3 --unit m3s --out out/hazard
 
     writes out/hazard/hazard_by_discharge.csv, hazard_by_aep.csv and
     figures/hazard_ensemble.png|svg, and prints the standard-AEP table.
