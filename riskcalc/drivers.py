@@ -77,7 +77,6 @@ from __future__ import annotations
 
 import math
 import time
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -90,7 +89,7 @@ from .io import to_plain as _plain
 from .hazard.curves import CHUNK_BYTES, row_chunks
 from .integrate import cell_masses, cell_points
 from .model import ResponseDraws
-from .propagate import default_workers
+from .parallel import default_workers, map_in_threads
 from .response import gauss_hermite_normal
 from .sensitivity import (WIDE_INTERVAL, Factor, max_conf_width, morris_screening, realization_factor_map,
                           sobol_indices, sobol_until_converged)
@@ -631,13 +630,7 @@ class RiskDriver:
             out[:, s] = self._risk_rows(src[r[s]], d.rating_offset[s], d.mode_shift[:, s], d.mode_spread[:, s],
                                         d.damage_multiplier[s], d.life_loss_multiplier[s])
 
-        nw = self.workers if workers is None else max(1, int(workers))
-        if nw == 1 or len(slices) == 1:
-            for s in slices:
-                work(s)
-        else:
-            with ThreadPoolExecutor(nw) as ex:
-                list(ex.map(work, slices))
+        map_in_threads(work, slices, self.workers if workers is None else workers)
         return dict(zip(OUTPUT_KEYS, out))
 
     # -- factors -> samples --------------------------------------------
@@ -716,12 +709,7 @@ def build_driver(ens, model, grid, *, rule="midpoint", log_spacing=True, workers
     def fill(rows):
         W[rows] = node_masses(cell_masses(ens.aep(grid, rows)), rule)
 
-    if nw == 1 or len(chunks) == 1:
-        for rows in chunks:
-            fill(rows)
-    else:
-        with ThreadPoolExecutor(nw) as ex:
-            list(ex.map(fill, chunks))
+    map_in_threads(fill, chunks, nw)
     h0 = model.stage_at(pts)
     node_w = None
     if model.natural is not None and model.natural.active:

@@ -14,21 +14,15 @@ held, whatever R is.
 
 from __future__ import annotations
 
-import os
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
 
 from .hazard.curves import CHUNK_BYTES
 from .integrate import cell_masses, cell_points
+from .parallel import default_workers, map_in_threads
 
 __all__ = ["Propagation", "propagate", "cell_integrands", "cell_fn_matrix", "chunk_rows_for", "default_workers"]
-
-
-def default_workers() -> int:
-    """Worker threads for chunked work: the machine's cores, at most 4."""
-    return max(1, min(4, os.cpu_count() or 1))
 
 
 @dataclass(frozen=True, eq=False)
@@ -153,19 +147,7 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
                 vals[:, rep, :] = np.einsum("cq,cqk->ck", m, Gd)
         return mbar, vals, fn, nominal
 
-    n_workers = default_workers() if workers is None else max(1, int(workers))
-    results = [None] * len(chunks)
-    if n_workers == 1 or len(chunks) == 1:
-        for i in range(len(chunks)):
-            results[i] = work(i)
-            if progress:
-                progress(i + 1, len(chunks))
-    else:
-        with ThreadPoolExecutor(n_workers) as ex:
-            for done, (i, res) in enumerate(zip(range(len(chunks)), ex.map(work, range(len(chunks)))), start=1):
-                results[i] = res
-                if progress:
-                    progress(done, len(chunks))
+    results = map_in_threads(work, range(len(chunks)), workers, progress)
     mbar = np.zeros(Q)
     for r in results:  # summed in chunk order: the same for any number of workers
         mbar += r[0]

@@ -28,6 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special as sc
 
+from ..parallel import map_in_threads
 from .ensemble import HazardEnsemble
 from .ensemble import _paper_z as _paper
 from .families import get_family
@@ -283,23 +284,9 @@ def vertical_quantiles(ens: HazardEnsemble, aeps, levels, chunk_bytes=CHUNK_BYTE
         def fill(rows, cols=cols, q=q):
             q[rows] = ens.quantile(cols, rows)
 
-        _in_threads(fill, chunks)
+        map_in_threads(fill, chunks)
         out.append(weighted_quantile(q, ens.weights, levels))
     return np.concatenate(out, axis=1)
-
-
-def _in_threads(fn, items, workers=None):
-    """Run ``fn`` on each item, in threads when there are several (scipy.special releases the GIL)."""
-    import os
-    from concurrent.futures import ThreadPoolExecutor
-
-    n = max(1, min(4, os.cpu_count() or 1)) if workers is None else workers
-    if n == 1 or len(items) < 2:
-        for it in items:
-            fn(it)
-        return
-    with ThreadPoolExecutor(n) as ex:
-        list(ex.map(fn, items))
 
 
 def median_curve(aeps, median_values, ens: HazardEnsemble) -> HazardEnsemble:
