@@ -31,12 +31,12 @@ def hazard_by_aep(curves) -> pd.DataFrame:
     q, u = curves.quantity, unit_suffix(curves.unit)
     return pd.DataFrame({
         "aep": curves.aeps,
-        "return_period_yr": 1.0 / curves.aeps,
         f"{q}_predictive{u}": curves.quantity_predictive,
         f"{q}_mode{u}": curves.quantity_mode,
         f"{q}_median{u}": curves.quantity_median,
         f"{q}_{lo}{u}": curves.quantity_lower,
         f"{q}_{hi}{u}": curves.quantity_upper,
+        "return_period_yr": 1.0 / curves.aeps,
     })
 
 

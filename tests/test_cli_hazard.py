@@ -78,3 +78,11 @@ def test_usage_errors_exit_2_without_traceback(argv, capsys):
     code, _, err = run(argv, capsys)
     assert code == 2
     assert "Traceback" not in err and "Error" in err
+
+
+def test_table_column_order(tmp_path, capsys):
+    out = tmp_path / "hz"
+    code, _, err = run(["hazard", str(DEMO), "--family", "lp3", "--unit", "m3s", "--out", str(out)], capsys)
+    assert code == 0, err
+    cols = list(pd.read_csv(out / "hazard_by_aep.csv").columns)
+    assert cols[:4] == ["aep", "discharge_predictive_m3s", "discharge_mode_m3s", "discharge_median_m3s"]
