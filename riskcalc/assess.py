@@ -120,6 +120,17 @@ CAUTION_TEXT = ("Screening support for qualified, licensed engineers; it does no
                 "considered.")
 
 
+def run_date() -> str:
+    """Today's date (ISO), or the date of ``SOURCE_DATE_EPOCH`` when set (the reproducible-builds
+    convention), so that outputs can be byte-identical across days."""
+    import os
+
+    epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
+    if epoch.isdigit():
+        return _dt.datetime.fromtimestamp(int(epoch), _dt.timezone.utc).date().isoformat()
+    return _dt.date.today().isoformat()
+
+
 def _grid_breakpoints(model, variable):
     """Response breakpoints (table stages, fragility medians) as grid quantities."""
     pts = [model.consequences.stage]
@@ -299,7 +310,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
         warnings.append(f"the mode curve's {sc.checks['design_aep']:g}-AEP {ens.quantity} ({x_mode:.4g}) lies outside "
                         f"the ensemble's {round(100 * sc.credible_level)} % band ({lo_b:.4g} to {hi_b:.4g}); check the "
                         "explicit mode parameters")
-    provenance = {"riskcalc_version": __version__, "date": _dt.date.today().isoformat(), "seed": sc.seed,
+    provenance = {"riskcalc_version": __version__, "date": run_date(), "seed": sc.seed,
                   "python": platform.python_version(), "scenario": str(sc.path.name),
                   "inputs": dict(sc.file_hashes) or {str(p.name): sha256(p) for p in sc.files},
                   "settings": {"grid_points": int(grid.size), "aep_max": g["aep_max"], "aep_min": g["aep_min"],

@@ -61,15 +61,16 @@ def test_bad_ensemble_exits_2_without_traceback_or_output(tmp_path, capsys):
     assert not list(tmp_path.glob(".hz*"))
 
 
-def test_installed_command_help_and_error():
+def test_installed_command_help_and_error(tmp_path):
     exe = shutil.which("riskcalc", path=str(Path(sys.executable).parent))
     if exe is None:
         pytest.skip("the riskcalc console script is not installed in this environment")
     r = subprocess.run([exe, "hazard", "--help"], capture_output=True, text=True)
     assert r.returncode == 0 and "Example" in r.stdout and "--family" in r.stdout
-    r = subprocess.run([exe, "hazard", "missing.csv", "--family", "lp3", "--out", "/tmp/riskcalc-never"],
-                       capture_output=True, text=True)
+    r = subprocess.run([exe, "hazard", "missing.csv", "--family", "lp3", "--out", str(tmp_path / "never")],
+                       capture_output=True, text=True, cwd=tmp_path)
     assert r.returncode == 2 and r.stderr.startswith("riskcalc: error: missing.csv: file not found")
+    assert not (tmp_path / "never").exists()
     assert "Traceback" not in r.stderr
 
 

@@ -12,7 +12,7 @@ P4 = np.array([0.5, 0.1, 0.01, 0.002])
 
 # Bulletin 17B (1982), Appendix 3: Pearson Type III frequency factors K(skew, AEP).
 # Values computed here with scipy.stats.pearson3.isf from the published definition (shared references
-# section 3); the printed table agrees to the third decimal except two cells one unit lower (from memory),
+# section 3); the printed table agrees to the third decimal except two cells one unit lower [from memory],
 # so the tolerance is atol 0.002.
 B17B_APPENDIX3 = {
     -1.0: [0.164, 1.128, 1.588, 1.741],
@@ -76,7 +76,7 @@ def test_lp3_bounds_are_exact():
 
 
 def test_gev_bound_and_sign_convention():
-    # Hosking & Wallis (1997), Appendix A.8: shape kappa > 0 is bounded above at xi + alpha / kappa
+    # Hosking & Wallis (1997), Appendix A.8 [from memory]: shape kappa > 0 is bounded above at xi + alpha / kappa
     xi, a, k = 100.0, 20.0, 0.25
     ub = xi + a / k
     assert fam.gev_aep(np.array([ub + 1e-9, ub + 50]), [[xi]], [[a]], [[k]]).max() == 0.0
@@ -84,7 +84,7 @@ def test_gev_bound_and_sign_convention():
     # kappa < 0 is bounded below at the same formula: AEP exactly 1 below it
     lb = xi + a / -k
     assert fam.gev_aep(np.array([lb - 1.0]), [[xi]], [[a]], [[-k]])[0, 0] == 1.0
-    # Hosking & Wallis A.8 quantile x(F) = xi + alpha/kappa (1 - (-ln F)^kappa), worked by hand at F = 0.99
+    # Hosking & Wallis A.8 quantile [from memory] x(F) = xi + alpha/kappa (1 - (-ln F)^kappa), worked by hand at F = 0.99
     expected = xi + a / k * (1 - (-np.log(0.99)) ** k)
     assert fam.gev_quantile(np.array([0.01]), [[xi]], [[a]], [[k]])[0, 0] == pytest.approx(expected, rel=1e-12)
 

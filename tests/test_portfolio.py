@@ -27,9 +27,12 @@ def summaries(out, names):
 
 
 def test_serial_and_local_cluster_are_bit_identical(tmp_path, three_scenarios):
+    dask = pytest.importorskip("dask")
     pytest.importorskip("dask.distributed")
     serial = run_portfolio(three_scenarios, tmp_path / "serial")
-    dist = run_portfolio(three_scenarios, tmp_path / "dist", workers=2)
+    # generous start-up and connect limits: worker processes start slowly on a loaded runner
+    with dask.config.set({"distributed.comm.timeouts.connect": "120s", "distributed.deploy.lost-worker-timeout": "120s"}):
+        dist = run_portfolio(three_scenarios, tmp_path / "dist", workers=2)
     assert (serial["status"] == "ok").all() and (dist["status"] == "ok").all()
     cols = [c for c in serial.columns if c not in ("output",)]
     pd.testing.assert_frame_equal(serial[cols], dist[cols], check_exact=True)
