@@ -21,8 +21,8 @@ from common import best_of, in_child, peak_rss_mb, tmpdir, write_scenario  # noq
 
 def case_floor(R, Q):
     from riskcalc.hazard.families import lp3_aep
-    from riskcalc.scenario import load_scenario
-    from riskcalc.assess import assess  # noqa: F401
+    from riskcalc.config.scenario import load_scenario
+    from riskcalc.risk.assess import assess  # noqa: F401
 
     with tmpdir() as d:
         sc = load_scenario(write_scenario(d, R, Q))
@@ -36,8 +36,8 @@ def case_floor(R, Q):
 
 
 def case_chain(R, Q, workers=None):
-    from riskcalc.assess import assess
-    from riskcalc.scenario import load_scenario
+    from riskcalc.risk.assess import assess
+    from riskcalc.config.scenario import load_scenario
 
     with tmpdir() as d:
         sc = load_scenario(write_scenario(d, R, Q))
@@ -51,7 +51,7 @@ def case_loop(R, Q, subset=2000):
     from scipy import stats
 
     from riskcalc.hazard.curves import quantity_grid
-    from riskcalc.scenario import load_scenario
+    from riskcalc.config.scenario import load_scenario
 
     with tmpdir() as d:
         sc = load_scenario(write_scenario(d, R, Q))
@@ -85,8 +85,8 @@ def case_loop(R, Q, subset=2000):
 
 
 def case_memory(R, Q):
-    from riskcalc.assess import assess
-    from riskcalc.scenario import load_scenario
+    from riskcalc.risk.assess import assess
+    from riskcalc.config.scenario import load_scenario
 
     import time
 
@@ -100,8 +100,8 @@ def case_memory(R, Q):
 
 def case_grid(R, Q):
     """AFP and EAD on a coarser grid against a 20,000-point reference."""
-    from riskcalc.assess import assess
-    from riskcalc.scenario import load_scenario
+    from riskcalc.risk.assess import assess
+    from riskcalc.config.scenario import load_scenario
 
     d = tmpdir()
     sc = load_scenario(write_scenario(d.name, R, Q))
@@ -122,8 +122,8 @@ def case_grid(R, Q):
 def case_propagate(R, Q):
     """The Q-dependent core alone: the chunked Monte Carlo over a fixed grid (no band, no grid search)."""
     from riskcalc.hazard.curves import quantity_grid
-    from riskcalc.propagate import propagate
-    from riskcalc.scenario import load_scenario
+    from riskcalc.risk.propagate import propagate
+    from riskcalc.config.scenario import load_scenario
 
     with tmpdir() as d:
         sc = load_scenario(write_scenario(d, R, Q))

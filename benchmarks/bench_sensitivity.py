@@ -1,4 +1,4 @@
-"""Benchmark: Sobol' indices of the risk chain (riskcalc.drivers) on a large ensemble.
+"""Benchmark: Sobol' indices of the risk chain (riskcalc.sensitivity.evaluator) on a large ensemble.
 
 Target case: 20,000 LP3 realizations x 2,000 grid points, 8 factors (hazard
 realization, rating offset, shift and spread factor of two failure modes,
@@ -29,9 +29,9 @@ CASES = {
 
 
 def setup(natural):
-    from riskcalc.consequences import ConsequenceCurves, Multiplier
+    from riskcalc.response.consequences import ConsequenceCurves, Multiplier
     from riskcalc.hazard import HazardEnsemble, quantity_grid
-    from riskcalc.model import RiskModel
+    from riskcalc.response.chain import RiskModel
     from riskcalc.response import FailureMode, FragilityCurve, RatingCurve, StageSpread
 
     rng = np.random.default_rng(SEED)
@@ -56,8 +56,8 @@ def setup(natural):
 def case(name):
     import resource
 
-    from riskcalc.drivers import build_driver, scenario_factors
-    from riskcalc.sensitivity import sobol_indices
+    from riskcalc.sensitivity.evaluator import build_driver, scenario_factors
+    from riskcalc.sensitivity.salib import sobol_indices
 
     n, natural, workers = CASES[name]
     ens, model, grid = setup(natural)

@@ -20,8 +20,8 @@ __all__ = ["__version__", "load_scenario", "assess", "run", "read_ensemble", "ha
 
 # the submodule riskcalc.assess shares its name with the function: importing the function here,
 # after the submodule has loaded, keeps `riskcalc.assess` the function
-from .assess import assess  # noqa: E402
+from .risk.assess import assess  # noqa: E402
 from .errors import InputError  # noqa: E402
 from .hazard import hazard_curves, read_ensemble  # noqa: E402
-from .scenario import load_scenario  # noqa: E402
+from .config.scenario import load_scenario  # noqa: E402
 from .workflows import run_scenario as run  # noqa: E402

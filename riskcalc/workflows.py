@@ -10,8 +10,8 @@ from pathlib import Path
 from .errors import InputError
 from .hazard import STANDARD_AEPS, hazard_curves, read_ensemble
 from .io import atomic_output_dir, write_csv
-from .plots import plot_hazard
-from .tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
+from .outputs.figures import plot_hazard
+from .outputs.tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
 
 __all__ = ["hazard_step"]
 
@@ -64,21 +64,21 @@ def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity
         for name, df in result.tables().items():
             write_csv(t / f"{name}.csv", df)
         if figures and sc.outputs.get("figures", True):
-            from . import plots
+            from .outputs import figures as plots
 
             plots.run_figures(result, tmp / "figures")
         if sensitivity_report is not None:
-            from .drivers import write_sensitivity_outputs
+            from .sensitivity.evaluator import write_sensitivity_outputs
 
             # the run's figure of the indices comes from plots.run_figures (same function as the command's)
             write_sensitivity_outputs(sensitivity_report, tmp, figures=False)
         if comparison is not None:
-            from .alternatives import write_comparison_files
+            from .decision.alternatives import write_comparison_files
 
             write_comparison_files(comparison, tmp, figures=figures and sc.outputs.get("figures", True))
         if sc.outputs.get("memo", True):
             try:
-                from .report import write_memo
+                from .outputs.memo import write_memo
             except ImportError:  # the memo arrives with the report module
                 write_memo = None
             if write_memo is not None:
@@ -88,8 +88,8 @@ def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity
 
 def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=None, figures=True):
     """Load, validate and assess a scenario, then write its outputs. Returns the :class:`RiskResult`."""
-    from .assess import assess
-    from .scenario import load_scenario
+    from .risk.assess import assess
+    from .config.scenario import load_scenario
 
     out = Path(out)
     if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:
@@ -97,7 +97,7 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
     sc = load_scenario(scenario_path)
     result = assess(sc, workers=workers, progress=progress)
     report = None
-    from .drivers import sensitivity_enabled, sensitivity_for_run
+    from .sensitivity.evaluator import sensitivity_enabled, sensitivity_for_run
 
     if sensitivity_enabled(sc):
         import dataclasses
@@ -107,7 +107,7 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
                                      warnings=[*result.warnings, *report.warnings])
     comparison = None
     if sc.alternatives:
-        from .alternatives import attach_memo_section, compare
+        from .decision.alternatives import attach_memo_section, compare
 
         comparison = compare(sc, workers=workers)
         attach_memo_section(result, comparison)

@@ -9,12 +9,12 @@ import pandas as pd
 import pytest
 
 import riskcalc.cli.compare  # noqa: F401  (registers the command on the app)
-from riskcalc import alternatives as al
-from riskcalc import economics as ec
+from riskcalc.decision import alternatives as al
+from riskcalc.decision import economics as ec
 from riskcalc.cli import main
 from riskcalc.errors import InputError
-from riskcalc.propagate import chunk_rows_for, propagate
-from riskcalc.scenario import load_scenario
+from riskcalc.risk.propagate import chunk_rows_for, propagate
+from riskcalc.config.scenario import load_scenario
 
 ROOT = Path(__file__).resolve().parents[1]
 BUNDLED = ROOT / "scenarios" / "amberlow_alternatives" / "scenario.toml"

@@ -404,7 +404,7 @@ def test_python_minus_o_still_validates(scenario_factory, tmp_path):
     # validation must not rely on assert (skipped under python -O); style guide, "Error policy"
     path = scenario_factory(folder="sc")
     put("ensemble.csv", "mean,sd,skew\n2.5,-0.2,0.1\n")(path)
-    code = ("import sys; from riskcalc.scenario import load_scenario\n"
+    code = ("import sys; from riskcalc.config.scenario import load_scenario\n"
             "from riskcalc.errors import InputError\n"
             f"try:\n    load_scenario({str(path)!r})\nexcept InputError as e:\n    print(e); sys.exit(2)\n")
     proc = subprocess.run([sys.executable, "-O", "-c", code], capture_output=True, text=True, timeout=120)

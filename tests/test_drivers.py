@@ -1,7 +1,7 @@
-"""Tests of riskcalc.drivers: the risk-model factors, the vectorized model, the gap by source, the CLI.
+"""Tests of riskcalc.sensitivity.evaluator: the risk-model factors, the vectorized model, the gap by source, the CLI.
 
 The vectorized model is checked against the run itself (riskcalc.assess) and against the chain
-evaluated directly (riskcalc.propagate.cell_integrands); the indices against closed-form reasoning
+evaluated directly (riskcalc.risk.propagate.cell_integrands); the indices against closed-form reasoning
 (a single factor carries all the variance; a factor that does not enter has total index 0,
 Saltelli et al. 2008, The Primer, ch. 4); the gap table against the run and against the means of
 the multiplier distributions.
@@ -17,15 +17,15 @@ import pytest
 from conftest import CONSEQ, RATING
 
 import riskcalc.cli.sensitivity  # noqa: F401  (registers the command on the app)
-from riskcalc.assess import assess
+from riskcalc.risk.assess import assess
 from riskcalc.cli import main
-from riskcalc.drivers import (OUTPUT_KEYS, build_driver, driver_for_result, gap_by_source, node_masses,
+from riskcalc.sensitivity.evaluator import (OUTPUT_KEYS, build_driver, driver_for_result, gap_by_source, node_masses,
                               read_settings, scenario_factors, sensitivity_enabled, sensitivity_for_run)
 from riskcalc.errors import InputError
-from riskcalc.integrate import cell_masses
-from riskcalc.model import ResponseDraws
-from riskcalc.propagate import cell_integrands
-from riskcalc.scenario import load_scenario
+from riskcalc.risk.integrate import cell_masses
+from riskcalc.response.chain import ResponseDraws
+from riskcalc.risk.propagate import cell_integrands
+from riskcalc.config.scenario import load_scenario
 
 AFP, EAD, ALL = OUTPUT_KEYS
 
@@ -108,7 +108,7 @@ def test_nominal_samples_equal_the_runs_per_realization_values(scenario_factory,
 @pytest.mark.parametrize("rule", ["midpoint", "trapezoid"])
 def test_sampled_response_equals_the_chain_evaluated_directly(scenario_factory, rule):
     # the same risk through the plain chain: masses of realization r times the integrands of
-    # RiskModel.integrands at the draw's parameters (riskcalc.propagate.cell_integrands)
+    # RiskModel.integrands at the draw's parameters (riskcalc.risk.propagate.cell_integrands)
     path = make(scenario_factory, f"direct_{rule}", modes=TWO_MODES.format(shift=0.3),
                 conseq_extra=DAMAGE_TRI + LIFE_LOGN, rating_extra="knowledge_sd = 0.2\nnatural_sd = 0.2",
                 grid_extra=f"rule = '{rule}'")

@@ -6,7 +6,7 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from riskcalc import economics as ec
+from riskcalc.decision import economics as ec
 
 
 def exact_pw_of_uniform_series(rate, years):

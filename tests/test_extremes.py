@@ -16,14 +16,14 @@ import numpy as np
 import pytest
 from scipy import special as sc
 
-from riskcalc.assess import assess
-from riskcalc.consequences import ConsequenceCurves
+from riskcalc.risk.assess import assess
+from riskcalc.response.consequences import ConsequenceCurves
 from riskcalc.hazard.ensemble import HazardEnsemble
 from riskcalc.io import write_json
-from riskcalc.model import RiskModel
-from riskcalc.propagate import propagate
+from riskcalc.response.chain import RiskModel
+from riskcalc.risk.propagate import propagate
 from riskcalc.response import FailureMode, FragilityCurve
-from riskcalc.scenario import load_scenario
+from riskcalc.config.scenario import load_scenario
 
 HEADLINE = ("annual_failure_probability", "expected_annual_damage", "annualized_life_loss")
 FAST = "[grid]\npoints = 300\n"

@@ -8,10 +8,10 @@ import matplotlib.pyplot as plt
 import numpy as np
 import pytest
 
-from riskcalc import plots
-from riskcalc.assess import assess
-from riskcalc.guidelines import DEFAULT_GUIDELINES
-from riskcalc.scenario import load_scenario
+from riskcalc.outputs import figures as plots
+from riskcalc.risk.assess import assess
+from riskcalc.decision.guidelines import DEFAULT_GUIDELINES
+from riskcalc.config.scenario import load_scenario
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -78,7 +78,7 @@ def test_fn_chart_draws_only_chart_lines(bundled):
 def test_identical_lines_are_drawn_once():
     # shared references section 7 [from memory]: the USACE societal limit and the ANCOLD limit for existing
     # dams are the same line, (N = 1, F = 1e-3) to (N = 1000, F = 1e-6)
-    from riskcalc.guidelines import GuidelineSet
+    from riskcalc.decision.guidelines import GuidelineSet
 
     lines = DEFAULT_GUIDELINES["usace_2014"].lines + DEFAULT_GUIDELINES["ancold_2003"].lines
     merged = plots.merged_chart_lines(GuidelineSet("all", "test", lines))

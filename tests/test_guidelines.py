@@ -5,7 +5,7 @@ import dataclasses
 import numpy as np
 import pytest
 
-from riskcalc import guidelines as gl
+from riskcalc.decision import guidelines as gl
 from riskcalc.errors import InputError
 
 D = gl.DEFAULT_GUIDELINES

@@ -17,9 +17,9 @@ from typer.testing import CliRunner
 
 import riskcalc.cli.memo as memo_cli  # registers `riskcalc memo` on the app
 from riskcalc.cli import app, main
-from riskcalc import plots
+from riskcalc.outputs import figures as plots
 from riskcalc.io import write_json
-from riskcalc.report import HEADLINE_ROWS, rebuild_memo, write_memo
+from riskcalc.outputs.memo import HEADLINE_ROWS, rebuild_memo, write_memo
 from riskcalc.workflows import run_scenario
 
 from conftest import write_scenario

@@ -1,7 +1,7 @@
 """Property tests of the risk engine (hypothesis, small example counts).
 
 Each property is an identity or a bound of the method (docs/reliability.md), checked on random
-ensembles and response models built in code and run through :func:`riskcalc.propagate.propagate`,
+ensembles and response models built in code and run through :func:`riskcalc.risk.propagate.propagate`,
 or on small scenarios through :func:`riskcalc.assess.assess`:
 
 * AFP in [0, 1] and EAD, ALL >= 0 (probabilities; non-negative consequences);
@@ -27,17 +27,17 @@ import numpy as np
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from riskcalc.assess import assess
-from riskcalc.consequences import ConsequenceCurves
+from riskcalc.risk.assess import assess
+from riskcalc.response.consequences import ConsequenceCurves
 from riskcalc.hazard.curves import quantity_grid
 from riskcalc.hazard.ensemble import HazardEnsemble, normalize_weights
-from riskcalc.model import RiskModel
-from riskcalc.propagate import propagate
+from riskcalc.response.chain import RiskModel
+from riskcalc.risk.propagate import propagate
 from riskcalc.response import FailureMode, FragilityCurve, RatingCurve, StageSpread
-from riskcalc.scenario import load_scenario
+from riskcalc.config.scenario import load_scenario
 
 SETTINGS = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-AFP, EAD, ALL = 0, 2, 4  # columns of riskcalc.model.OUTPUTS
+AFP, EAD, ALL = 0, 2, 4  # columns of riskcalc.response.chain.OUTPUTS
 
 # 1 ft = 0.3048 m exactly (international foot, 1959; NIST SP 811, appendix B)
 FT_PER_M = 1 / 0.3048

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import pytest
 
-import riskcalc.plots
+import riskcalc.outputs.figures
 import riskcalc.workflows
 from riskcalc.cli import main
 from riskcalc.errors import InputError
@@ -113,7 +113,7 @@ def quick_figures(result, folder):
 @pytest.fixture
 def previous(scenario_factory, tmp_path, capsys, monkeypatch):
     """A scenario and a finished results directory from an earlier run."""
-    monkeypatch.setattr(riskcalc.plots, "run_figures", quick_figures)
+    monkeypatch.setattr(riskcalc.outputs.figures, "run_figures", quick_figures)
     path = scenario_factory(folder="sc", toml_extra="[grid]\npoints = 200\n[outputs]\nmemo = false\n")
     out = tmp_path / "results"
     code, _, err = run_cli(["run", path, "--out", out, "--quiet"], capsys)
@@ -153,7 +153,7 @@ def test_ctrl_c_during_figures_leaves_previous_results(previous, tmp_path, capsy
         written.append(folder)
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(riskcalc.plots, "run_figures", interrupted)
+    monkeypatch.setattr(riskcalc.outputs.figures, "run_figures", interrupted)
     code, _, err = run_cli(["run", path, "--out", out, "--overwrite"], capsys)
     assert written, "the run did not reach the figures"
     assert "Traceback" not in err
@@ -174,7 +174,7 @@ def test_input_error_late_in_run_exits_2_and_leaves_previous_results(previous, t
     def bad(result, folder):
         raise InputError("a late problem", "figures", key="outputs.figures")
 
-    monkeypatch.setattr(riskcalc.plots, "run_figures", bad)
+    monkeypatch.setattr(riskcalc.outputs.figures, "run_figures", bad)
     code, _, err = run_cli(["run", path, "--out", out, "--overwrite"], capsys)
     assert code == 2 and len(err.splitlines()) == 1
     assert snapshot(out) == before and leftovers(tmp_path) == []

@@ -5,12 +5,12 @@ import pytest
 from scipy import special as sc
 from scipy import stats
 
-from riskcalc.assess import assess
-from riskcalc.consequences import ConsequenceCurves
-from riskcalc.integrate import cell_masses, cell_points, chance_in_years, fn_curve
-from riskcalc.model import RiskModel
+from riskcalc.risk.assess import assess
+from riskcalc.response.consequences import ConsequenceCurves
+from riskcalc.risk.integrate import cell_masses, cell_points, chance_in_years, fn_curve
+from riskcalc.response.chain import RiskModel
 from riskcalc.response import FailureMode, FragilityCurve, StageSpread, combine_independent, unimodal_bounds
-from riskcalc.scenario import load_scenario
+from riskcalc.config.scenario import load_scenario
 
 
 def zero_consequences(stage=(0.0, 1.0)):

@@ -7,7 +7,7 @@ import pytest
 
 from riskcalc.cli import main
 from riskcalc.errors import InputError
-from riskcalc.scenario import load_scenario
+from riskcalc.config.scenario import load_scenario
 
 ROOT = Path(__file__).resolve().parents[1]
 

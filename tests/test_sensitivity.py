@@ -13,7 +13,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from riskcalc.sensitivity import (
+from riskcalc.sensitivity.salib import (
     Factor,
     ModelOutputError,
     SobolResult,

@@ -47,10 +47,10 @@ def compare(
     writes out/alternatives/comparison.json, comparison.md, tables/alternatives.csv,
     tables/paired_differences.csv and figures/benefit_distributions.png|svg, and prints the ranking.
     """
-    from ..alternatives import compare as run_compare
-    from ..alternatives import write_comparison
+    from ..decision.alternatives import compare as run_compare
+    from ..decision.alternatives import write_comparison
     from ..errors import InputError
-    from ..scenario import load_scenario
+    from ..config.scenario import load_scenario
 
     if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:
         raise InputError("output directory is not empty; pass --overwrite to replace it", out)

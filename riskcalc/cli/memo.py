@@ -69,7 +69,7 @@ def memo(
 
     rewrites out/amberlow/memo.md and memo.html and prints out/amberlow/memo.pdf.
     """
-    from ..report import rebuild_memo
+    from ..outputs.memo import rebuild_memo
 
     if pdf and find_chromium() is None:
         raise InputError("--pdf needs Chromium, which was not found on PATH; install it (Debian: apt-get install "

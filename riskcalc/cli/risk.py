@@ -54,7 +54,7 @@ def check(scenario: Path = typer.Argument(..., help="Scenario file (.toml).")):
 
         riskcalc check scenarios/amberlow_levee/scenario.toml
     """
-    from ..scenario import load_scenario
+    from ..config.scenario import load_scenario
 
     sc = load_scenario(scenario)
     typer.echo(f"{scenario}: valid. {sc.ensemble.size} realizations ({sc.ensemble.family}, {sc.ensemble.quantity}), "

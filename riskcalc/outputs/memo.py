@@ -35,7 +35,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError
+from ..errors import InputError
 
 __all__ = ["write_memo", "rebuild_memo", "tolerable_risk_table", "render_memo", "HEADLINE_ROWS"]
 
@@ -337,8 +337,8 @@ def tolerable_risk_table(result, guidelines=None):
     """
     import pandas as pd
 
-    from .guidelines import check_fn_curve, check_point, check_value, evaluate_line
-    from .plots import scenario_guidelines
+    from ..decision.guidelines import check_fn_curve, check_point, check_value, evaluate_line
+    from .figures import scenario_guidelines
 
     gs = guidelines if guidelines is not None else scenario_guidelines(result.scenario)
     rows = []
@@ -389,7 +389,7 @@ def write_memo(result, outdir) -> list[Path]:
     list of Path
         memo.md and memo.html.
     """
-    from .io import write_csv, write_json
+    from ..io import write_csv, write_json
 
     outdir = Path(outdir)
     (outdir / "tables").mkdir(parents=True, exist_ok=True)
@@ -530,7 +530,7 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     sections.append(Section("Headline results", "headline", tuple(blocks), new_page=False))
 
     # 2. figures -------------------------------------------------------------
-    from .plots import FIGURE_STEMS
+    from .figures import FIGURE_STEMS
 
     fblocks = []
     for stem in FIGURE_STEMS:

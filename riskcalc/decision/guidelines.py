@@ -45,7 +45,7 @@ from typing import ClassVar, Union
 
 import numpy as np
 
-from .errors import InputError
+from ..errors import InputError
 
 __all__ = [
     "MEASURES",

@@ -21,12 +21,12 @@ try:
 except ModuleNotFoundError:  # Python 3.10
     import tomli as tomllib
 
-from .consequences import Multiplier, read_consequence_table
-from .errors import InputError
-from .hazard import read_ensemble
-from .hazard.families import FAMILIES
-from .model import RiskModel
-from .response import FailureMode, FragilityCurve, StageSpread, read_fragility_table, read_rating_table
+from ..response.consequences import Multiplier, read_consequence_table
+from ..errors import InputError
+from ..hazard import read_ensemble
+from ..hazard.families import FAMILIES
+from ..response.chain import RiskModel
+from ..response import FailureMode, FragilityCurve, StageSpread, read_fragility_table, read_rating_table
 
 __all__ = ["Scenario", "load_scenario", "read_scenario_dict", "SCHEMA"]
 
@@ -330,7 +330,7 @@ def _hashes(files, scenario_path) -> dict:
     inputs share a file name)."""
     import os
 
-    from .io import sha256
+    from ..io import sha256
 
     here = Path(scenario_path).resolve().parent
     return {Path(os.path.relpath(Path(f).resolve(), here)).as_posix(): sha256(f) for f in files}

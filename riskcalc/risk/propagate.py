@@ -18,9 +18,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .hazard.curves import CHUNK_BYTES
+from ..hazard.curves import CHUNK_BYTES
 from .integrate import cell_masses, cell_points
-from .parallel import default_workers, map_in_threads
+from ..parallel import default_workers, map_in_threads
 
 __all__ = ["Propagation", "propagate", "cell_integrands", "cell_fn_matrix", "chunk_rows_for", "default_workers"]
 

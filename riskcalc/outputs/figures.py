@@ -222,7 +222,7 @@ def scenario_guidelines(scenario):
         non-empty ``[guidelines]`` section; otherwise the lines of all sets in
         :data:`riskcalc.guidelines.DEFAULT_GUIDELINES` (display defaults).
     """
-    from .guidelines import DEFAULT_GUIDELINES, GuidelineSet, from_config
+    from ..decision.guidelines import DEFAULT_GUIDELINES, GuidelineSet, from_config
 
     cfg = getattr(scenario, "guidelines", None)
     if cfg:
@@ -472,7 +472,7 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
         F-N limit lines on the F-N axes; life-loss and annual failure
         probability lines on the f-N axes.
     """
-    from .guidelines import FNLimitLine, evaluate_line
+    from ..decision.guidelines import FNLimitLine, evaluate_line
 
     gs = guidelines if guidelines is not None else scenario_guidelines(result.scenario)
     lines = merged_chart_lines(gs)

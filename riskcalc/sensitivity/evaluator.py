@@ -84,14 +84,14 @@ import numpy as np
 import pandas as pd
 from scipy import special as sc
 
-from .errors import InputError
-from .io import to_plain as _plain
-from .hazard.curves import CHUNK_BYTES, row_chunks
-from .integrate import cell_masses, cell_points
-from .model import ResponseDraws
-from .parallel import default_workers, map_in_threads
-from .response import gauss_hermite_normal
-from .sensitivity import (WIDE_INTERVAL, Factor, max_conf_width, morris_screening, realization_factor_map,
+from ..errors import InputError
+from ..io import to_plain as _plain
+from ..hazard.curves import CHUNK_BYTES, row_chunks
+from ..risk.integrate import cell_masses, cell_points
+from ..response.chain import ResponseDraws
+from ..parallel import default_workers, map_in_threads
+from ..response import gauss_hermite_normal
+from .salib import (WIDE_INTERVAL, Factor, max_conf_width, morris_screening, realization_factor_map,
                           sobol_indices, sobol_until_converged)
 
 __all__ = [
@@ -894,7 +894,7 @@ class SensitivityReport:
 
     def as_json(self) -> dict:
         """The sensitivity.json structure (non-finite numbers as null)."""
-        from .assess import CAUTION_TEXT
+        from ..risk.assess import CAUTION_TEXT
 
         s = self.settings
         out = {
@@ -1025,7 +1025,7 @@ def plot_indices(report: SensitivityReport, path_stem=None, *, top: int = 12):
 
     Returns the figure when ``path_stem`` is None, else the written paths (PNG and SVG).
     """
-    from .plots import plot_sensitivity
+    from ..outputs.figures import plot_sensitivity
 
     notes = {k: f"N = {r.n}, {round(100 * r.conf_level)} % intervals" for k, r in report.sobol.items()}
     return plot_sensitivity(report.summary(), path_stem, panel_notes=notes, top=top)
@@ -1038,7 +1038,7 @@ def write_sensitivity_outputs(report: SensitivityReport, folder, *, figures: boo
     ``tables/sobol_second_order.csv``, with Morris ``tables/morris_screening.csv``,
     ``figures/sensitivity_indices.png|svg``, and with ``json_name`` that JSON file.
     """
-    from .io import write_csv, write_json
+    from ..io import write_csv, write_json
 
     folder = Path(folder)
     t = folder / "tables"
@@ -1066,9 +1066,9 @@ def sensitivity_workflow(scenario_path, out, *, n=None, seed=None, second_order=
     result : RiskResult
     report : SensitivityReport
     """
-    from .assess import assess
-    from .io import atomic_output_dir
-    from .scenario import load_scenario
+    from ..risk.assess import assess
+    from ..io import atomic_output_dir
+    from ..config.scenario import load_scenario
 
     out = Path(out)
     if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:

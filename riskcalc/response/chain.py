@@ -25,7 +25,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .consequences import ConsequenceCurves
-from .response import RatingCurve, StageSpread, combine_independent, gauss_hermite_normal
+from .fragility import combine_independent
+from .rating import RatingCurve, StageSpread, gauss_hermite_normal
 
 __all__ = ["RiskModel", "ResponseDraws", "OUTPUTS"]
 

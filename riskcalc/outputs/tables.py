@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from .io import unit_suffix
+from ..io import unit_suffix
 
 __all__ = ["hazard_by_quantity", "hazard_by_aep"]
 
@@ -42,7 +42,7 @@ def hazard_by_aep(curves) -> pd.DataFrame:
 
 def standard_aep_table(curves, aeps) -> pd.DataFrame:
     """The standard-AEP rows of :func:`hazard_by_aep` (interpolated on probability paper)."""
-    from .hazard.curves import invert_on_paper
+    from ..hazard.curves import invert_on_paper
 
     q, u = curves.quantity, unit_suffix(curves.unit)
     lo, hi = curves.band_names

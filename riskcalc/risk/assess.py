@@ -14,12 +14,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import __version__
-from .errors import InputError
-from .hazard.curves import hazard_curves, invert_on_paper, mode_curve, quantity_grid, weighted_quantile
+from .. import __version__
+from ..errors import InputError
+from ..hazard.curves import hazard_curves, invert_on_paper, mode_curve, quantity_grid, weighted_quantile
 from .integrate import aep_band_contributions, cell_masses, cell_points, chance_in_years, fn_levels
-from .io import sha256
-from .io import to_plain as _plain
+from ..io import sha256
+from ..io import to_plain as _plain
 from .propagate import Propagation, cell_fn_matrix, default_workers, propagate
 
 __all__ = ["RiskResult", "assess", "HEADLINES", "weighted_summary"]
@@ -77,7 +77,7 @@ class RiskResult:
 
     def tables(self) -> dict:
         """The run's tidy tables as pandas DataFrames, keyed by their file stem under ``tables/``."""
-        from .tables import (aep_band_table, fn_table, hazard_by_aep, hazard_by_quantity, per_draw_table,
+        from ..outputs.tables import (aep_band_table, fn_table, hazard_by_aep, hazard_by_quantity, per_draw_table,
                              response_table)
 
         q = self.curves.quantity

@@ -25,8 +25,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
-from .io import read_table, split_unit
+from ..errors import InputError
+from ..io import read_table, split_unit
 
 __all__ = ["ConsequenceCurves", "Multiplier", "read_consequence_table", "CONSEQUENCE_FIELDS"]
 

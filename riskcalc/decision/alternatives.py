@@ -57,14 +57,14 @@ import numpy as np
 
 from . import economics as ec
 
-from .assess import CAUTION_TEXT, build_grid, weighted_summary
-from .io import to_plain as _plain
-from .errors import InputError
-from .hazard import read_ensemble
-from .hazard.curves import mode_curve
-from .hazard.families import FAMILIES
-from .integrate import cell_masses
-from .propagate import cell_integrands, chunk_rows_for, propagate
+from ..risk.assess import CAUTION_TEXT, build_grid, weighted_summary
+from ..io import to_plain as _plain
+from ..errors import InputError
+from ..hazard import read_ensemble
+from ..hazard.curves import mode_curve
+from ..hazard.families import FAMILIES
+from ..risk.integrate import cell_masses
+from ..risk.propagate import cell_integrands, chunk_rows_for, propagate
 
 __all__ = [
     "BASE_NAME", "Alternative", "EconomicSettings", "PlanRisk", "Comparison",
@@ -178,7 +178,7 @@ def _table(v, file, key):
 
 def _resolve_paths(d: dict, here: Path) -> dict:
     """A copy of an override with its table paths absolute (already absolute paths are kept)."""
-    from .scenario import _absolutize
+    from ..config.scenario import _absolutize
 
     out = copy.deepcopy(d)
     _absolutize(out, here)
@@ -328,7 +328,7 @@ def plan_model(scenario, overrides=(), prefix="", damage_factor=1.0, life_loss_f
     -------
     RiskModel
     """
-    from .scenario import _check, _merge, build_model
+    from ..config.scenario import _check, _merge, build_model
 
     d = _base_dict(scenario)
     for o in overrides:
@@ -356,7 +356,7 @@ def plan_model(scenario, overrides=(), prefix="", damage_factor=1.0, life_loss_f
 
 def _future_ensemble(scenario, settings):
     """The future-year hazard ensemble and mode parameters (the base's when the future keeps the hazard)."""
-    from .scenario import _check, _merge
+    from ..config.scenario import _check, _merge
 
     hz_override = settings.future.get("hazard")
     if not hz_override:
@@ -807,7 +807,7 @@ def plot_benefit_distributions(c: Comparison, path_stem=None):
     path_stem : path, optional
         Where to save (PNG and SVG via :func:`riskcalc.plots.save`); the figure is returned when omitted.
     """
-    from .plots import STYLE, plt, save
+    from ..outputs.figures import STYLE, plt, save
 
     cur = c.scenario.units["currency"].upper()
     names = [a.name for a in c.alternatives]
@@ -953,7 +953,7 @@ def attach_memo_section(result, c: Comparison) -> dict:
 def write_comparison_files(c: Comparison, folder, *, figures=True) -> None:
     """Write comparison.json, comparison.md, tables/alternatives.csv, tables/paired_differences.csv and
     figures/benefit_distributions.* into an existing folder (a run's or a comparison's)."""
-    from .io import write_csv, write_json
+    from ..io import write_csv, write_json
 
     folder = Path(folder)
     write_json(folder / "comparison.json", comparison_dict(c))
@@ -968,7 +968,7 @@ def write_comparison_files(c: Comparison, folder, *, figures=True) -> None:
 
 def write_comparison(c: Comparison, out, *, overwrite=False, figures=True) -> Path:
     """Write the comparison's files (:func:`write_comparison_files`) into ``out`` atomically."""
-    from .io import atomic_output_dir
+    from ..io import atomic_output_dir
 
     with atomic_output_dir(out, overwrite=overwrite) as tmp:
         write_comparison_files(c, tmp, figures=figures)

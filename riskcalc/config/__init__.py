@@ -1,0 +1,1 @@
+"""Configuration: the scenario file, its schema, and building the model from it."""

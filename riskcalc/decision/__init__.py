@@ -1,0 +1,1 @@
+"""Decision: tolerable-risk reference lines, engineering economics, alternatives."""

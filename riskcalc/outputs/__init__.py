@@ -1,0 +1,1 @@
+"""Outputs: labels and formats, tidy tables, figures and the decision memo."""

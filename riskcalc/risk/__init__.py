@@ -1,0 +1,1 @@
+"""Risk: integrals on the probability axis, the epistemic Monte Carlo, and a whole run."""
