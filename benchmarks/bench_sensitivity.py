@@ -56,7 +56,8 @@ def setup(natural):
 def case(name):
     import resource
 
-    from riskcalc.sensitivity.evaluator import build_driver, scenario_factors
+    from riskcalc.sensitivity.evaluator import build_driver
+    from riskcalc.sensitivity.factors import scenario_factors
     from riskcalc.sensitivity.salib import sobol_indices
 
     n, natural, workers = CASES[name]

@@ -5,6 +5,7 @@ The CLI calls these and nothing else; a notebook can call them too.
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 from .errors import InputError
@@ -68,12 +69,12 @@ def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity
 
             plots.run_figures(result, tmp / "figures")
         if sensitivity_report is not None:
-            from .sensitivity.evaluator import write_sensitivity_outputs
+            from .outputs.sensitivity import write_sensitivity_outputs
 
             # the run's figure of the indices comes from plots.run_figures (same function as the command's)
             write_sensitivity_outputs(sensitivity_report, tmp, figures=False)
         if comparison is not None:
-            from .decision.alternatives import write_comparison_files
+            from .outputs.comparison import write_comparison_files
 
             write_comparison_files(comparison, tmp, figures=figures and sc.outputs.get("figures", True))
         if sc.outputs.get("memo", True):
@@ -97,7 +98,8 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
     sc = load_scenario(scenario_path)
     result = assess(sc, workers=workers, progress=progress)
     report = None
-    from .sensitivity.evaluator import sensitivity_enabled, sensitivity_for_run
+    from .config.settings import sensitivity_enabled
+    from .sensitivity.analysis import sensitivity_for_run
 
     if sensitivity_enabled(sc):
         import dataclasses
@@ -107,10 +109,43 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
                                      warnings=[*result.warnings, *report.warnings])
     comparison = None
     if sc.alternatives:
-        from .decision.alternatives import attach_memo_section, compare
+        from .decision.alternatives import compare
+        from .outputs.comparison import attach_memo_section
 
         comparison = compare(sc, workers=workers)
         attach_memo_section(result, comparison)
     write_run_outputs(result, out, overwrite=overwrite, figures=figures, sensitivity_report=report,
                       comparison=comparison)
     return result
+def sensitivity_workflow(scenario_path, out, *, n=None, seed=None, second_order=None, target_width=None,
+                         morris=None, overwrite=False, workers=None, figures=True):
+    """``riskcalc sensitivity``: load, run the chain, compute the report and write it into ``out`` atomically.
+
+    Command-line values override the scenario's ``[sensitivity]`` table.
+
+    Returns
+    -------
+    result : RiskResult
+    report : SensitivityReport
+    """
+    from .config.scenario import load_scenario
+    from .config.settings import read_settings
+    from .outputs.sensitivity import write_sensitivity_outputs
+    from .risk.assess import assess
+    from .sensitivity.analysis import sensitivity_for_run
+    from .sensitivity.factors import scenario_factors
+
+    out = Path(out)
+    if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:
+        raise InputError("output directory is not empty; pass --overwrite to replace it", out)
+    sc_ = load_scenario(scenario_path)
+    overrides = {"n": n, "seed": seed, "second_order": second_order or None, "target_width": target_width,
+                 "morris": morris or None}
+    settings = read_settings(sc_.sensitivity, sc_.path, default_seed=sc_.seed, overrides=overrides,
+                             factors=scenario_factors(sc_.model))
+    result = assess(sc_, workers=workers)
+    report = sensitivity_for_run(sc_, result, settings, workers=workers)
+    report = dataclasses.replace(report, provenance={**result.provenance, **report.provenance})
+    with atomic_output_dir(out, overwrite=overwrite) as tmp:
+        write_sensitivity_outputs(report, tmp, figures=figures, json_name="sensitivity.json")
+    return result, report

@@ -9,7 +9,9 @@ import pandas as pd
 import pytest
 
 import riskcalc.cli.compare  # noqa: F401  (registers the command on the app)
+from riskcalc.config.decision import BASE_NAME
 from riskcalc.decision import alternatives as al
+from riskcalc.outputs.comparison import memo_section
 from riskcalc.decision import economics as ec
 from riskcalc.cli import main
 from riskcalc.errors import InputError
@@ -115,7 +117,7 @@ def test_paired_differences_equal_difference_of_separate_runs_with_the_same_seed
     # Common random numbers: doubling every damage doubles every draw's EAD (the damage multiplier and
     # rating offset draws are the same), so the benefit is -EAD_without draw by draw; independent
     # draws would break this. Multiplication by 2 is exact; sums of doubled terms differ by rounding only.
-    ead0 = c.equivalent[al.BASE_NAME]["ead"]
+    ead0 = c.equivalent[BASE_NAME]["ead"]
     np.testing.assert_allclose(c.economics["doubled damage"].expected_annual_benefit, -ead0, rtol=1e-12, atol=0)
     assert np.all(c.economics["doubled damage"].life_loss_reduction == 0.0)
     assert c.figures["doubled damage"]["response_draws_paired"]
@@ -156,7 +158,7 @@ def test_constant_future_condition_annualizes_to_the_base_year_value(scenario_fa
     """ + _alt("same"), knowledge=False)
     c = al.compare(sc)
     for n in ("ead", "all", "afp"):
-        np.testing.assert_allclose(c.equivalent[al.BASE_NAME][n], c.risks[al.BASE_NAME][0].values[n], rtol=1e-12)
+        np.testing.assert_allclose(c.equivalent[BASE_NAME][n], c.risks[BASE_NAME][0].values[n], rtol=1e-12)
     assert np.all(c.economics["same"].expected_annual_benefit == 0.0)
 
 
@@ -175,12 +177,12 @@ def test_linear_damage_growth_against_the_arithmetic_gradient_factor(scenario_fa
       damage_factor = {f}
     """ + _alt("same"), knowledge=False)
     c = al.compare(sc)
-    e = c.risks[al.BASE_NAME][0].values["ead"]
-    np.testing.assert_allclose(c.risks[al.BASE_NAME][1].values["ead"], f * e, rtol=1e-12)
+    e = c.risks[BASE_NAME][0].values["ead"]
+    np.testing.assert_allclose(c.risks[BASE_NAME][1].values["ead"], f * e, rtol=1e-12)
     ag = 1 / i - T / ((1 + i) ** T - 1)
-    np.testing.assert_allclose(c.equivalent[al.BASE_NAME]["ead"], e * (1 + (f - 1) / (T - 1) * ag), rtol=1e-12)
+    np.testing.assert_allclose(c.equivalent[BASE_NAME]["ead"], e * (1 + (f - 1) / (T - 1) * ag), rtol=1e-12)
     # life loss has no growth here: constant, so it annualizes to itself
-    np.testing.assert_allclose(c.equivalent[al.BASE_NAME]["all"], c.risks[al.BASE_NAME][0].values["all"],
+    np.testing.assert_allclose(c.equivalent[BASE_NAME]["all"], c.risks[BASE_NAME][0].values["all"],
                                rtol=1e-12)
 
 
@@ -347,7 +349,7 @@ def test_memo_section_is_escaped(scenario_factory):
     table = "consequences_x2.csv"
     """), knowledge=False)
     c = al.compare(sc)
-    sec = al.memo_section(c)
+    sec = memo_section(c)
     assert set(sec) == {"title", "markdown", "html", "figures"}
     assert "&lt;b&gt;dam &amp; dike&lt;/b&gt;" in sec["html"] and "<b>dam" not in sec["html"]
     assert sec["figures"] == ["benefit_distributions"]

@@ -19,8 +19,11 @@ from conftest import CONSEQ, RATING
 import riskcalc.cli.sensitivity  # noqa: F401  (registers the command on the app)
 from riskcalc.risk.assess import assess
 from riskcalc.cli import main
-from riskcalc.sensitivity.evaluator import (OUTPUT_KEYS, build_driver, driver_for_result, gap_by_source, node_masses,
-                              read_settings, scenario_factors, sensitivity_enabled, sensitivity_for_run)
+from riskcalc.config.settings import read_settings, sensitivity_enabled
+from riskcalc.sensitivity.analysis import sensitivity_for_run
+from riskcalc.sensitivity.evaluator import OUTPUT_KEYS, build_driver, driver_for_result, node_masses
+from riskcalc.sensitivity.factors import scenario_factors
+from riskcalc.sensitivity.gap import gap_by_source
 from riskcalc.errors import InputError
 from riskcalc.risk.integrate import cell_masses
 from riskcalc.response.chain import ResponseDraws

@@ -48,7 +48,7 @@ def compare(
     tables/paired_differences.csv and figures/benefit_distributions.png|svg, and prints the ranking.
     """
     from ..decision.alternatives import compare as run_compare
-    from ..decision.alternatives import write_comparison
+    from ..outputs.comparison import write_comparison
     from ..errors import InputError
     from ..config.scenario import load_scenario
 

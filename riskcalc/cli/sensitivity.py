@@ -38,7 +38,7 @@ def sensitivity_command(
     tables/mean_mode_gap_by_source.csv and figures/sensitivity_indices.png|svg, and prints the
     ranked indices.
     """
-    from ..sensitivity.evaluator import sensitivity_workflow
+    from ..workflows import sensitivity_workflow
 
     _, report = sensitivity_workflow(scenario, out, n=n, seed=seed, second_order=second_order,
                                      target_width=target_width, morris=morris, overwrite=overwrite,
