@@ -21,43 +21,12 @@ try:
 except ModuleNotFoundError:  # Python 3.10
     import tomli as tomllib
 
-from ..response.consequences import Multiplier, read_consequence_table
 from ..errors import InputError
 from ..hazard import read_ensemble
 from ..hazard.families import FAMILIES
-from ..response.chain import RiskModel
-from ..response import FailureMode, FragilityCurve, StageSpread, read_fragility_table, read_rating_table
+from .build import build_model
+from .schema import DISCHARGE_UNITS, STAGE_UNITS, _file_name, _probability, check_section
 
-__all__ = ["Scenario", "load_scenario", "read_scenario_dict", "SCHEMA"]
-
-DISCHARGE_UNITS = ("m3s", "cfs")
-STAGE_UNITS = ("m", "ft")
-
-#: The keys each section accepts: key -> (type, default). None default: required.
-SCHEMA = {
-    "": {"title": (str, "untitled scenario"), "description": (str, ""), "seed": (int, 20240601),
-         "base": (str, ""), "units": (dict, {}), "hazard": (dict, None), "grid": (dict, {}),
-         "rating": (dict, {}), "failure_modes": (list, None), "consequences": (dict, None),
-         "uncertainty": (dict, {}), "checks": (dict, {}), "outputs": (dict, {}), "guidelines": (dict, {}),
-         "sensitivity": (dict, {}), "alternatives": (list, []), "economics": (dict, {})},
-    "units": {"discharge": (str, "m3s"), "stage": (str, "m"), "currency": (str, "usd")},
-    "hazard": {"variable": (str, "discharge"), "family": (str, None), "ensemble": (str, None),
-               "credible_level": (float, 0.9), "mode": (dict, {})},
-    "grid": {"points": (int, 2000), "aep_max": (float, 0.999), "aep_min": (float, 1e-7),
-             "rule": (str, "midpoint")},
-    "rating": {"table": (str, None), "extrapolation": (str, "extend"), "natural_sd": (float, 0.0),
-               "knowledge_sd": (float, 0.0)},
-    "failure_mode": {"name": (str, None), "shift_sd": (float, 0.0), "spread_range": (list, []),
-                     "nodes": (list, None)},
-    "node": {"name": (str, "node"), "kind": (str, None), "median": (float, math.nan),
-             "spread": (float, math.nan), "datum": (float, 0.0), "table": (str, "")},
-    "consequences": {"table": (str, None), "damage_multiplier": (dict, {}), "life_loss_multiplier": (dict, {})},
-    "multiplier": {"distribution": (str, "fixed"), "low": (float, 1.0), "mode": (float, 1.0), "high": (float, 1.0),
-                   "median": (float, 1.0), "beta": (float, 0.0)},
-    "uncertainty": {"draws_per_realization": (int, 1), "hermite_nodes": (int, 16), "workers": (int, 0)},
-    "checks": {"design_aep": (float, 0.01), "years": (int, 50)},
-    "outputs": {"figures": (bool, True), "memo": (bool, True)},
-}
 
 PATH_KEYS = (("hazard", "ensemble"), ("rating", "table"), ("consequences", "table"))
 
@@ -137,54 +106,6 @@ def read_scenario_dict(path, _chain=()) -> tuple[dict, list[Path]]:
     return d, files
 
 
-def _check(section: str, d, file, prefix: str):
-    """Validate keys and types of one table against SCHEMA[section]; returns a dict with defaults filled."""
-    spec = SCHEMA[section]
-    if not isinstance(d, dict):
-        raise InputError("expected a table of settings", file, key=prefix.rstrip(".") or section)
-    out = {}
-    for k in d:
-        if k not in spec:
-            raise InputError(f"unknown key; expected one of {', '.join(sorted(spec))}", file, key=prefix + k)
-    for k, (typ, default) in spec.items():
-        if k not in d:
-            if default is None:
-                raise InputError("missing required key", file, key=prefix + k)
-            out[k] = copy.deepcopy(default)
-            continue
-        v = d[k]
-        if typ is float and isinstance(v, int) and not isinstance(v, bool):
-            v = float(v)
-        if typ is float and isinstance(v, float) and not math.isfinite(v):
-            raise InputError(f"{v} is not finite", file, key=prefix + k)
-        if typ is int and isinstance(v, bool) or not isinstance(v, typ):
-            raise InputError(f"expected {_typename(typ)}, got {_typename(type(v))} {v!r}"[:160], file, key=prefix + k)
-        out[k] = v
-    return out
-
-
-def _typename(t):
-    return {str: "text", int: "an integer", float: "a number", bool: "true or false", dict: "a table",
-            list: "a list"}.get(t, t.__name__)
-
-
-def _file_name(v, file, key):
-    """Refuse an empty table path (it would otherwise resolve to the scenario's folder)."""
-    if not str(v).strip():
-        raise InputError("is empty; expected the name of a .csv or .xlsx table", file, key=key)
-    return v
-
-
-def _mode_key(name: str) -> str:
-    """A failure-mode name as it appears in table columns and summary keys (spaces -> '_', any case)."""
-    return "_".join(str(name).split()).lower()
-
-
-def _probability(v, file, key, open_=True):
-    if not (0 < v < 1 if open_ else 0 <= v <= 1):
-        raise InputError(f"{v} is outside {'(0, 1)' if open_ else '[0, 1]'}; expected a probability", file, key=key)
-
-
 @dataclass(frozen=True, eq=False)
 class Scenario:
     """A validated scenario: the ensemble, the model and the settings."""
@@ -196,7 +117,7 @@ class Scenario:
     units: dict
     ensemble: object
     mode_params: dict
-    model: RiskModel
+    model: object
     credible_level: float
     grid: dict
     uncertainty: dict
@@ -213,102 +134,6 @@ class Scenario:
     @property
     def variable(self):
         return self.ensemble.quantity
-
-
-def _multiplier(d, file, key):
-    m = _check("multiplier", d, file, key + ".")
-    try:
-        return Multiplier(**m)
-    except ValueError as exc:
-        raise InputError(str(exc), file, key=key) from None
-
-
-def build_model(d: dict, file, units: dict, variable: str) -> RiskModel:
-    """The response and consequence model from the scenario dict (validated here)."""
-    stage_u, q_u, cur = units["stage"], units["discharge"], units["currency"]
-    rating = natural = None
-    rd = d.get("rating") or {}
-    if variable == "discharge":
-        if not rd:
-            raise InputError("a discharge hazard needs a [rating] table (discharge to stage)", file, key="rating")
-        r = _check("rating", rd, file, "rating.")
-        if r["extrapolation"] not in ("refuse", "extend"):
-            raise InputError(f"'{r['extrapolation']}' is not refuse or extend", file, key="rating.extrapolation")
-        for k in ("natural_sd", "knowledge_sd"):
-            if r[k] < 0:
-                raise InputError(f"{r[k]} is negative; expected a standard deviation >= 0", file, key=f"rating.{k}")
-        _file_name(r["table"], file, "rating.table")
-        rating, spread = read_rating_table(r["table"], discharge_unit=q_u, stage_unit=stage_u,
-                                           extrapolation=r["extrapolation"])
-        natural = spread if spread is not None else (StageSpread(sd=r["natural_sd"]) if r["natural_sd"] > 0 else None)
-        offset_sd = r["knowledge_sd"]
-    else:
-        if rd:
-            r = _check("rating", {"table": "-", **rd}, file, "rating.")
-            if rd.get("table"):
-                raise InputError("a stage hazard needs no rating table; remove [rating].table", file,
-                                 key="rating.table")
-            natural = StageSpread(sd=r["natural_sd"]) if r["natural_sd"] > 0 else None
-            offset_sd = r["knowledge_sd"]
-        else:
-            offset_sd = 0.0
-    fms = d.get("failure_modes")
-    if not isinstance(fms, list) or not fms:
-        raise InputError("expected at least one [[failure_modes]] entry", file, key="failure_modes")
-    modes, seen = [], set()
-    for i, fm in enumerate(fms):
-        key = f"failure_modes[{i + 1}]"
-        f = _check("failure_mode", fm, file, key + ".")
-        if not f["name"].strip():
-            raise InputError("is empty; expected a failure-mode name", file, key=key + ".name")
-        if _mode_key(f["name"]) in seen:
-            raise InputError(f"failure-mode name '{f['name']}' is used twice (names are compared ignoring case and "
-                             "with spaces as '_', as in the output tables); names must be unique", file,
-                             key=key + ".name")
-        seen.add(_mode_key(f["name"]))
-        if f["shift_sd"] < 0:
-            raise InputError("expected a standard deviation >= 0", file, key=key + ".shift_sd")
-        sr = f["spread_range"]
-        if sr:
-            if len(sr) != 2 or not all(isinstance(v, (int, float)) for v in sr) or not 0 < sr[0] <= sr[1]:
-                raise InputError("expected [low, high] with 0 < low <= high", file, key=key + ".spread_range")
-        if not f["nodes"]:
-            raise InputError("expected at least one [[failure_modes.nodes]] entry", file, key=key + ".nodes")
-        nodes = []
-        for j, nd in enumerate(f["nodes"]):
-            nkey = f"{key}.nodes[{j + 1}]"
-            n = _check("node", nd, file, nkey + ".")
-            if n["kind"] == "table":
-                if not n["table"]:
-                    raise InputError("a table node needs a 'table' file", file, key=nkey + ".table")
-                node = read_fragility_table(n["table"], stage_unit=stage_u, name=n["name"])
-            elif n["kind"] in ("normal", "lognormal"):
-                if n["table"]:
-                    raise InputError(f"a {n['kind']} node takes median and spread, not a table", file,
-                                     key=nkey + ".table")
-                for k in ("median", "spread"):
-                    if math.isnan(n[k]):
-                        raise InputError("missing required key", file, key=f"{nkey}.{k}")
-                try:
-                    node = FragilityCurve(n["kind"], name=n["name"], median=n["median"], spread=n["spread"],
-                                          datum=n["datum"])
-                except ValueError as exc:
-                    raise InputError(str(exc), file, key=nkey) from None
-            else:
-                raise InputError(f"'{n['kind']}' is not normal, lognormal or table", file, key=nkey + ".kind")
-            nodes.append(node)
-        modes.append(FailureMode(f["name"], tuple(nodes), f["shift_sd"], tuple(float(v) for v in sr) if sr else None))
-    c = _check("consequences", d.get("consequences"), file, "consequences.")
-    _file_name(c["table"], file, "consequences.table")
-    cons = read_consequence_table(c["table"], stage_unit=stage_u, currency=cur)
-    dm = _multiplier(c["damage_multiplier"], file, "consequences.damage_multiplier")
-    lm = _multiplier(c["life_loss_multiplier"], file, "consequences.life_loss_multiplier")
-    cons = type(cons)(**{**cons.__dict__, "damage_multiplier": dm, "life_loss_multiplier": lm})
-    unc = _check("uncertainty", d.get("uncertainty", {}), file, "uncertainty.")
-    if not 2 <= unc["hermite_nodes"] <= 64:
-        raise InputError("expected 2 to 64 quadrature nodes", file, key="uncertainty.hermite_nodes")
-    return RiskModel(modes=tuple(modes), consequences=cons, rating=rating, natural=natural,
-                     rating_offset_sd=offset_sd, hermite_nodes=unc["hermite_nodes"])
 
 
 def _table_paths(obj) -> list:
@@ -346,10 +171,10 @@ def load_scenario(path) -> Scenario:
     """
     path = Path(path)
     d, files = read_scenario_dict(path)
-    top = _check("", d, path, "")
+    top = check_section("", d, path, "")
     if top["seed"] < 0:
         raise InputError(f"{top['seed']} is negative; expected an integer >= 0", path, key="seed")
-    units = _check("units", top["units"], path, "units.")
+    units = check_section("units", top["units"], path, "units.")
     if units["discharge"] not in DISCHARGE_UNITS:
         raise InputError(f"'{units['discharge']}' is not one of {', '.join(DISCHARGE_UNITS)}", path,
                          key="units.discharge")
@@ -359,7 +184,7 @@ def load_scenario(path) -> Scenario:
         raise InputError(f"'{units['currency']}' is not a currency code such as usd or eur", path,
                          key="units.currency")
     units["currency"] = units["currency"].lower()
-    hz = _check("hazard", top["hazard"], path, "hazard.")
+    hz = check_section("hazard", top["hazard"], path, "hazard.")
     if hz["variable"] not in ("discharge", "stage"):
         raise InputError(f"'{hz['variable']}' is not discharge or stage", path, key="hazard.variable")
     family = hz["family"].strip().lower()
@@ -388,7 +213,7 @@ def load_scenario(path) -> Scenario:
                 raise InputError(f"{mode[k]} is not finite", path, key=f"hazard.mode.{k}")
             if k in FAMILIES[family].positive and not mode[k] > 0:
                 raise InputError(f"{mode[k]} must be greater than 0", path, key=f"hazard.mode.{k}")
-    grid = _check("grid", top["grid"], path, "grid.")
+    grid = check_section("grid", top["grid"], path, "grid.")
     _probability(grid["aep_max"], path, "grid.aep_max")
     _probability(grid["aep_min"], path, "grid.aep_min")
     if not grid["aep_min"] < grid["aep_max"]:
@@ -398,20 +223,20 @@ def load_scenario(path) -> Scenario:
     if grid["rule"] not in ("midpoint", "trapezoid"):
         raise InputError(f"'{grid['rule']}' is not midpoint or trapezoid", path, key="grid.rule")
     model = build_model(d, path, units, hz["variable"])
-    unc = _check("uncertainty", top["uncertainty"], path, "uncertainty.")
+    unc = check_section("uncertainty", top["uncertainty"], path, "uncertainty.")
     if not 1 <= unc["draws_per_realization"] <= 10_000:
         raise InputError("expected 1 to 10000", path, key="uncertainty.draws_per_realization")
     if unc["workers"] < 0:
         raise InputError(f"{unc['workers']} is negative; expected 0 (the machine's cores) or a number of threads",
                          path, key="uncertainty.workers")
-    checks = _check("checks", top["checks"], path, "checks.")
+    checks = check_section("checks", top["checks"], path, "checks.")
     _probability(checks["design_aep"], path, "checks.design_aep")
     if not grid["aep_min"] <= checks["design_aep"] <= grid["aep_max"]:
         raise InputError(f"{checks['design_aep']} is outside the grid's AEP range [{grid['aep_min']}, "
                          f"{grid['aep_max']}]", path, key="checks.design_aep")
     if checks["years"] < 1:
         raise InputError("expected a number of years >= 1", path, key="checks.years")
-    outputs = _check("outputs", top["outputs"], path, "outputs.")
+    outputs = check_section("outputs", top["outputs"], path, "outputs.")
     inputs = [Path(hz["ensemble"])]
     if model.rating is not None:
         inputs.append(Path(model.rating.source))

@@ -89,14 +89,16 @@ def plan_model(scenario, overrides=(), prefix="", damage_factor=1.0, life_loss_f
     -------
     RiskModel
     """
-    from ..config.scenario import _check, _merge, build_model
+    from ..config.build import build_model
+    from ..config.scenario import _merge
+    from ..config.schema import check_section
 
     d = _base_dict(scenario)
     for o in overrides:
         d = _merge(d, o)
     try:
         model = build_model(d, scenario.path, scenario.units, scenario.ensemble.quantity)
-        unc = _check("uncertainty", d.get("uncertainty", {}), scenario.path, "uncertainty.")
+        unc = check_section("uncertainty", d.get("uncertainty", {}), scenario.path, "uncertainty.")
     except InputError as exc:
         if not prefix:
             raise
@@ -117,13 +119,14 @@ def plan_model(scenario, overrides=(), prefix="", damage_factor=1.0, life_loss_f
 
 def _future_ensemble(scenario, settings):
     """The future-year hazard ensemble and mode parameters (the base's when the future keeps the hazard)."""
-    from ..config.scenario import _check, _merge
+    from ..config.scenario import _merge
+    from ..config.schema import check_section
 
     hz_override = settings.future.get("hazard")
     if not hz_override:
         return scenario.ensemble, scenario.mode_params
     file = scenario.path
-    hz = _check("hazard", _merge(scenario.raw["hazard"], hz_override), file, "economics.future.hazard.")
+    hz = check_section("hazard", _merge(scenario.raw["hazard"], hz_override), file, "economics.future.hazard.")
     if hz["variable"] != scenario.ensemble.quantity:
         raise InputError("the future hazard must give the same variable as the base", file,
                          key="economics.future.hazard.variable")

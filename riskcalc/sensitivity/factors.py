@@ -8,10 +8,15 @@ unbounded factors are swept over [MORRIS_TAIL, 1 - MORRIS_TAIL]."""
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
+
 import numpy as np
 from scipy import special as sc
 from ..errors import InputError
-from .salib import (Factor)
+from .salib import Factor
+
+if TYPE_CHECKING:
+    from ..config.settings import SensitivitySettings
 
 
 
@@ -130,7 +135,7 @@ def scenario_factors(model) -> tuple[RiskFactor, ...]:
     return tuple(out)
 
 
-def select_factors(factors, settings: "SensitivitySettings", file=None, keys=None) -> tuple[RiskFactor, ...]:
+def select_factors(factors, settings: SensitivitySettings, file=None, keys=None) -> tuple[RiskFactor, ...]:
     """Apply ``include``, ``exclude`` and ``groups`` to the derived factors.
 
     Raises
