@@ -29,27 +29,30 @@ CASES = {
 
 
 def setup(natural):
-    from riskcalc.response.consequences import ConsequenceCurves, Multiplier
     from riskcalc.hazard import HazardEnsemble, quantity_grid
-    from riskcalc.response.chain import RiskModel
     from riskcalc.response import FailureMode, FragilityCurve, RatingCurve, StageSpread
+    from riskcalc.response import uncertain as unc
+    from riskcalc.response.chain import ResponseChain
+    from riskcalc.response.consequences import ConsequenceCurves
 
     rng = np.random.default_rng(SEED)
     params = {"mean": rng.normal(2.8, 0.05, R), "sd": rng.uniform(0.18, 0.32, R), "skew": rng.uniform(-0.8, 0.8, R)}
     ens = HazardEnsemble(family="lp3", weights=np.full(R, 1 / R), params=params)
     grid = quantity_grid(ens, n=Q)
     rating = RatingCurve(np.array([10.0, 100, 1000, 10000, 1e5, 1e6]), np.array([1.0, 2.0, 4.0, 7.0, 11.0, 16.0]))
-    modes = (FailureMode("overtopping", (FragilityCurve("normal", median=7.5, spread=0.4),), shift_sd=0.2,
-                         spread_range=(0.8, 1.25)),
-             FailureMode("seepage", (FragilityCurve("lognormal", median=5.0, spread=0.3, datum=1.0),), shift_sd=0.3,
-                         spread_range=(0.7, 1.3)))
+    modes = (FailureMode("overtopping", (FragilityCurve("normal", median=7.5, spread=0.4),)),
+             FailureMode("seepage", (FragilityCurve("lognormal", median=5.0, spread=0.3, datum=1.0),)))
     st = np.array([2.0, 4.0, 6.0, 9.0, 12.0])
     cons = ConsequenceCurves(st, np.array([0, 1e6, 5e6, 2e7, 4e7]), np.array([0, 0, 1e6, 5e6, 1e7]),
-                             np.array([0, 1, 10, 50, 120.0]), np.zeros(5),
-                             damage_multiplier=Multiplier("triangular", 0.8, 1.0, 1.3),
-                             life_loss_multiplier=Multiplier("lognormal", median=1.0, beta=0.4))
-    model = RiskModel(modes=modes, consequences=cons, rating=rating,
-                      natural=StageSpread(0.15) if natural else None, rating_offset_sd=0.1)
+                             np.array([0, 1, 10, 50, 120.0]), np.zeros(5))
+    registry = unc.UncertainInputs((
+        unc.rating_offset(0.1),
+        unc.fragility_shift(0, "overtopping", 0.2), unc.fragility_spread(0, "overtopping", 0.8, 1.25),
+        unc.fragility_shift(1, "seepage", 0.3), unc.fragility_spread(1, "seepage", 0.7, 1.3),
+        unc.consequence_factor("damage", "triangular", low=0.8, mode=1.0, high=1.3),
+        unc.consequence_factor("life_loss", "lognormal", median=1.0, beta=0.4)), n_failure_modes=2)
+    model = ResponseChain(failure_modes=modes, consequences=cons, rating=rating,
+                          natural=StageSpread(0.15) if natural else None, uncertain=registry)
     return ens, model, grid
 
 

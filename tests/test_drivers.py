@@ -1,7 +1,7 @@
 """Tests of riskcalc.sensitivity.evaluator: the risk-model factors, the vectorized model, the gap by source, the CLI.
 
-The vectorized model is checked against the run itself (riskcalc.assess) and against the chain
-evaluated directly (riskcalc.risk.propagate.cell_integrands); the indices against closed-form reasoning
+The vectorized model is checked against the run itself (riskcalc.risk.assess) and against the risk
+integral written out independently with scipy.special for a one-failure-mode case; the indices against closed-form reasoning
 (a single factor carries all the variance; a factor that does not enter has total index 0,
 Saltelli et al. 2008, The Primer, ch. 4); the gap table against the run and against the means of
 the multiplier distributions.
@@ -21,13 +21,12 @@ from riskcalc.risk.assess import assess
 from riskcalc.cli import main
 from riskcalc.config.settings import read_settings, sensitivity_enabled
 from riskcalc.sensitivity.analysis import sensitivity_for_run
-from riskcalc.sensitivity.evaluator import OUTPUT_KEYS, build_driver, driver_for_result, node_masses
+from riskcalc.sensitivity.evaluator import OUTPUT_KEYS, build_driver, driver_for_result
 from riskcalc.sensitivity.factors import scenario_factors
 from riskcalc.sensitivity.gap import gap_by_source
 from riskcalc.errors import InputError
-from riskcalc.risk.integrate import cell_masses
-from riskcalc.response.chain import ResponseDraws
-from riskcalc.risk.propagate import cell_integrands
+from riskcalc.risk.integrate import cell_masses, evaluation_points, point_masses
+from scipy import special as sc_special
 from riskcalc.config.scenario import load_scenario
 
 AFP, EAD, ALL = OUTPUT_KEYS
@@ -109,36 +108,47 @@ def test_nominal_samples_equal_the_runs_per_realization_values(scenario_factory,
 
 
 @pytest.mark.parametrize("rule", ["midpoint", "trapezoid"])
-def test_sampled_response_equals_the_chain_evaluated_directly(scenario_factory, rule):
-    # the same risk through the plain chain: masses of realization r times the integrands of
-    # RiskModel.integrands at the draw's parameters (riskcalc.risk.propagate.cell_integrands)
-    path = make(scenario_factory, f"direct_{rule}", modes=TWO_MODES.format(shift=0.3),
-                conseq_extra=DAMAGE_TRI + LIFE_LOGN, rating_extra="knowledge_sd = 0.2\nnatural_sd = 0.2",
-                grid_extra=f"rule = '{rule}'")
+def test_sampled_response_equals_the_risk_integral_written_out(scenario_factory, rule):
+    # one normal failure mode without natural variability: for a draw (offset o, shift s, spread factor f,
+    # damage factor dm) the AFP of realization r is sum_p w[r, p] Phi((h(x_p) + o - 5 - s) / (0.5 f)) and
+    # the EAD dm sum_p w[r, p] (D_nb + Pf_p (D_b - D_nb)) at h(x_p) + o, damage linear in stage: written out
+    # here with scipy.special.ndtr and numpy.interp, independently of riskcalc's chain. rtol 1e-12.
+    modes = ONE_MODE_SHIFT.format(shift=0.3).replace("shift_sd = 0.3\n", "shift_sd = 0.3\nspread_range = [0.8, 1.25]\n")
+    path = make(scenario_factory, f"direct_{rule}", modes=modes, conseq_extra=DAMAGE_TRI,
+                rating_extra="knowledge_sd = 0.2", grid_extra=f"rule = '{rule}'")
     sc, res = run(path)
     drv = driver_for_result(res)
     rng = np.random.default_rng(11)
     B = 9
-    d = ResponseDraws(rng.normal(0, 0.2, B), rng.normal(0, 0.3, (2, B)), rng.uniform(0.8, 1.25, (2, B)),
-                      rng.uniform(0.8, 1.3, B), rng.lognormal(0, 0.3, B))
+    U = rng.random((B, 4))
+    names = ["rating_offset", "fragility_shift:breach", "fragility_spread:breach", "damage_multiplier"]
+    params = sc.model.uncertain.from_unit(names, U)
     r = rng.integers(0, sc.ensemble.size, B)
-    got = drv.evaluate(r, d, workers=2)
-    m = cell_masses(sc.ensemble.aep(res.grid, r))
-    G = cell_integrands(sc.model, res.grid, rule, sc.ensemble.log_scale, d)
-    names = sc.model.output_names()
-    for key, name in zip(OUTPUT_KEYS, ("afp", "ead", "all")):
-        ref = np.einsum("cq,cq->c", m, G[:, :, names.index(name)])
-        np.testing.assert_allclose(got[key], ref, rtol=1e-12, atol=0)
+    got = drv.evaluate(r, params, workers=2)
+    w = point_masses(cell_masses(sc.ensemble.aep(res.grid, r)), rule)
+    x = evaluation_points(res.grid, sc.ensemble.log_scale, rule)
+    h = sc.model.rating.stage_at(x)[None, :] + params.stage_offset[:, None]
+    pf = sc_special.ndtr((h - 5.0 - params.fm_shift[0][:, None]) / (0.5 * params.fm_spread[0][:, None]))
+    cons = sc.model.consequences
+    db, dn = np.interp(h, cons.stage, cons.damage_breach), np.interp(h, cons.stage, cons.damage_no_breach)
+    np.testing.assert_allclose(got[AFP], np.einsum("bp,bp->b", w, pf), rtol=1e-12, atol=0)
+    np.testing.assert_allclose(got[EAD], params.damage_factor * np.einsum("bp,bp->b", w, dn + pf * (db - dn)),
+                               rtol=1e-12)
+    # the quantiles of the registry: normal(0, 0.2) at u, uniform(0.8, 1.25), triangular(0.8, 1.0, 1.3)
+    from scipy import stats
+    np.testing.assert_allclose(params.stage_offset, stats.norm(0, 0.2).ppf(U[:, 0]), rtol=1e-12)
+    np.testing.assert_allclose(params.fm_spread[0], 0.8 + 0.45 * U[:, 2], rtol=1e-12)
+    np.testing.assert_allclose(params.damage_factor, stats.triang(2 / 5, loc=0.8, scale=0.5).ppf(U[:, 3]), rtol=1e-12)
 
 
-def test_node_masses_rearrange_the_trapezoid_sum():
-    # sum_i w_i g(x_i) = sum_j m_j (g(lo_j) + g(hi_j)) / 2, tail cell at x_J twice (integrate.cell_points)
+def test_point_masses_rearrange_the_trapezoid_sum():
+    # sum_i w_i g(x_i) = sum_j m_j (g(lo_j) + g(hi_j)) / 2, tail cell at x_J twice (integrate.evaluation_points)
     rng = np.random.default_rng(2)
     m, g = rng.random((3, 7)), rng.random(7)
     lo, hi = g, np.r_[g[1:], g[-1]]
-    np.testing.assert_allclose(node_masses(m, "trapezoid") @ g, m @ (0.5 * (lo + hi)), rtol=1e-14)
-    assert node_masses(m, "trapezoid").sum() == pytest.approx(m.sum(), rel=1e-14)  # mass is conserved
-    assert node_masses(m, "midpoint") is not None and np.array_equal(node_masses(m, "midpoint"), m)
+    np.testing.assert_allclose(point_masses(m, "trapezoid") @ g, m @ (0.5 * (lo + hi)), rtol=1e-14)
+    assert point_masses(m, "trapezoid").sum() == pytest.approx(m.sum(), rel=1e-14)  # mass is conserved
+    assert point_masses(m, "midpoint") is not None and np.array_equal(point_masses(m, "midpoint"), m)
 
 
 def test_factors_follow_the_scenario(scenario_factory):

@@ -20,7 +20,7 @@ from riskcalc.risk.assess import assess
 from riskcalc.response.consequences import ConsequenceCurves
 from riskcalc.hazard.ensemble import HazardEnsemble
 from riskcalc.io import write_json
-from riskcalc.response.chain import RiskModel
+from riskcalc.response.chain import ResponseChain
 from riskcalc.risk.propagate import propagate
 from riskcalc.response import FailureMode, FragilityCurve
 from riskcalc.config.scenario import load_scenario
@@ -164,7 +164,7 @@ def test_million_realizations_bounded_memory():
                          params={"location": rng.normal(500, 20, R), "scale": rng.uniform(80, 120, R)})
     grid = np.geomspace(200, 5000, Q)
     z = np.zeros(2)
-    model = RiskModel(modes=(FailureMode("m", (FragilityCurve("normal", median=1500.0, spread=200.0),)),),
+    model = ResponseChain(failure_modes=(FailureMode("m", (FragilityCurve("normal", median=1500.0, spread=200.0),)),),
                       consequences=ConsequenceCurves(np.array([0.0, 1e4]), z, z, z, z))
     tracemalloc.start()
     try:

@@ -31,7 +31,7 @@ from riskcalc.risk.assess import assess
 from riskcalc.response.consequences import ConsequenceCurves
 from riskcalc.hazard.curves import quantity_grid
 from riskcalc.hazard.ensemble import HazardEnsemble, normalize_weights
-from riskcalc.response.chain import RiskModel
+from riskcalc.response.chain import ResponseChain
 from riskcalc.risk.propagate import propagate
 from riskcalc.response import FailureMode, FragilityCurve, RatingCurve, StageSpread
 from riskcalc.config.scenario import load_scenario
@@ -69,7 +69,7 @@ def model_of(p, median=None):
     frag = FragilityCurve("normal", median=p["median"] if median is None else median, spread=p["spread"])
     stage = np.array([2.0, 4.0, 6.0, 9.0])
     cons = ConsequenceCurves(stage, p["dmg"], 0.1 * p["dmg"], p["life"], np.zeros(4))
-    return RiskModel(modes=(FailureMode("breach", (frag,)),), consequences=cons, rating=RATING,
+    return ResponseChain(failure_modes=(FailureMode("breach", (frag,)),), consequences=cons, rating=RATING,
                      natural=StageSpread(p["natural"]) if p["natural"] > 0 else None, hermite_nodes=12)
 
 

@@ -7,9 +7,9 @@ from scipy import stats
 
 from riskcalc.risk.assess import assess
 from riskcalc.response.consequences import ConsequenceCurves
-from riskcalc.risk.integrate import cell_masses, cell_points, chance_in_years, fn_curve
-from riskcalc.response.chain import RiskModel
-from riskcalc.response import FailureMode, FragilityCurve, StageSpread, combine_independent, unimodal_bounds
+from riskcalc.risk.integrate import cell_masses, chance_in_years, evaluation_points
+from riskcalc.response.chain import ResponseChain
+from riskcalc.response import FailureMode, FragilityCurve, StageSpread, combine_independent
 from riskcalc.config.scenario import load_scenario
 
 
@@ -27,9 +27,9 @@ def test_cornell_closed_form_power_law_hazard_lognormal_fragility():
     k0, k, theta, beta = 1e-4, 3.0, 1.0, 0.4
     grid = np.geomspace(1e-3, 1e3, 4000)
     p = np.minimum(1.0, k0 * grid ** -k)
-    model = RiskModel(modes=(FailureMode("m", (FragilityCurve("lognormal", median=theta, spread=beta),)),),
-                      consequences=zero_consequences())
-    G = model.integrands(cell_points(grid, True))
+    model = ResponseChain(failure_modes=(FailureMode("m", (FragilityCurve("lognormal", median=theta, spread=beta),)),),
+                          consequences=zero_consequences())
+    G = model.integrands(evaluation_points(grid, True))
     afp = cell_masses(p) @ G[:, 0]
     assert afp == pytest.approx(k0 * theta ** -k * np.exp(k * k * beta * beta / 2), rel=1e-3)
     assert afp == pytest.approx(2.0544332e-4, rel=1e-3)
@@ -39,20 +39,28 @@ def test_gauss_hermite_natural_variability_normal_fragility():
     # closed form: a normal fragility (mean mu, sd s_f) seen through stage scatter N(0, s_h) is a normal
     # fragility with sd sqrt(s_f^2 + s_h^2) (convolution of normals, common practice)
     frag = FragilityCurve("normal", median=5.0, spread=0.4)
-    model = RiskModel(modes=(FailureMode("m", (frag,)),), consequences=zero_consequences(), natural=StageSpread(0.3),
-                      hermite_nodes=24)
+    model = ResponseChain(failure_modes=(FailureMode("m", (frag,)),), consequences=zero_consequences(),
+                          natural=StageSpread(0.3), hermite_nodes=24)
     h = np.linspace(3, 7, 41)
     got = model.integrands(h)[:, 0]
     np.testing.assert_allclose(got, sc.ndtr((h - 5.0) / np.hypot(0.4, 0.3)), atol=1e-10)
 
 
-def test_independent_modes_and_unimodal_bounds():
-    # Ang & Tang (1984) vol. II, section 6.2: max_i P_i <= P_series <= 1 - prod(1 - P_i)
+def test_independent_failure_modes_and_the_dependent_lower_bound():
+    # Ang & Tang (1984) vol. II, section 6.2: max_i P_i <= P_series <= 1 - prod(1 - P_i); two table failure
+    # modes with P = 0.1 / 0.2, 0.5 / 0.5 and 1e-12 / 3e-12 at three stages, through the chain's outputs
     p = np.array([[0.1, 0.5, 1e-12], [0.2, 0.5, 3e-12]])
-    lo, hi = unimodal_bounds(p)
-    np.testing.assert_allclose(hi, [1 - 0.9 * 0.8, 0.75, 4e-12], rtol=1e-9)
-    np.testing.assert_allclose(lo, [0.2, 0.5, 3e-12])
-    assert np.all(combine_independent(p) >= lo)
+    np.testing.assert_allclose(combine_independent(p), [1 - 0.9 * 0.8, 0.75, 4e-12], rtol=1e-9)
+    # monotone tables need increasing probabilities: order the stages by probability
+    order = np.array([2, 0, 1])  # 1e-12 < 0.1 < 0.5 (and 3e-12 < 0.2 < 0.5)
+    stages = np.array([1.0, 2.0, 3.0])
+    fms = tuple(FailureMode(f"m{i}", (FragilityCurve("table", stage=stages, probability=p[i][order]),)) for i in range(2))
+    chain = ResponseChain(failure_modes=fms, consequences=zero_consequences((0.0, 4.0)))
+    G = chain.integrands(stages)
+    names = chain.output_names()
+    np.testing.assert_allclose(G[:, names.index("afp")], (p[0] + p[1] - p[0] * p[1])[order], rtol=1e-12)  # incl.-excl.
+    np.testing.assert_allclose(G[:, names.index("afp_lower_bound")], np.maximum(p[0], p[1])[order], rtol=1e-12)
+    np.testing.assert_allclose(G[:, names.index("afp_fm:m1")], p[1][order], rtol=1e-12)
 
 
 def test_node_chain_multiplies():
@@ -77,7 +85,7 @@ def test_linearity_identity_deterministic_and_aleatory(scenario_factory):
         prop = res.propagation
         for i, name in enumerate(prop.names):
             mean = prop.weights @ prop.values[:, i]
-            pred = prop.masses_predictive @ prop.integrands[:, i]
+            pred = prop.point_masses_predictive @ prop.integrands[:, i]
             assert mean == pytest.approx(pred, rel=1e-10, abs=1e-300), name
         assert res.headline["annual_failure_probability"]["predictive"] > res.headline["annual_failure_probability"]["mode"]
 
@@ -144,7 +152,7 @@ def test_crest_at_mode_design_stage_is_exceeded_more_often_student_t(scenario_fa
     x = 10 ** (ybar - sc.ndtri(0.01) * s)
     members = load_scenario(path).ensemble.aep(np.array([x]))[:, 0]
     se = members.std() / np.sqrt(R)
-    assert crest["discharge"] == pytest.approx(x, rel=1e-9)
+    assert crest.quantity == pytest.approx(x, rel=1e-9)
     assert abs(crest["aep_on_predictive"] - exact) < 4 * se
     assert crest["aep_on_predictive"] > 0.01
     assert crest["chance_in_years_predictive"] == pytest.approx(1 - (1 - crest["aep_on_predictive"]) ** 50, rel=1e-12)
@@ -176,11 +184,15 @@ def test_same_seed_same_numbers_and_workers_do_not_matter(scenario_factory):
 
 
 def test_fn_curve_definition():
-    # F(N) = sum_j P_f,j m_j 1[L_j >= N] (design), checked by hand on three cells
+    # F(N) = sum_j P_f,j m_j 1[L_j >= N] (design), checked by hand on three cells: P_f = 0, 0.5, 1 and
+    # life loss 0, 5, 50 at stages 1, 2, 3 (tables through those points, held constant beyond)
     m = np.array([0.1, 0.01, 0.001])
-    pf = np.array([0.0, 0.5, 1.0])
-    L = np.array([0.0, 5.0, 50.0])
-    np.testing.assert_allclose(fn_curve(m, pf, L, np.array([1.0, 5.0, 10.0, 100.0])),
+    stages = np.array([1.0, 2.0, 3.0])
+    frag = FragilityCurve("table", stage=stages, probability=np.array([0.0, 0.5, 1.0]))
+    z = np.zeros(3)
+    cons = ConsequenceCurves(stages, z, z, np.array([0.0, 5.0, 50.0]), z)
+    on = ResponseChain(failure_modes=(FailureMode("m", (frag,)),), consequences=cons).on(stages)
+    np.testing.assert_allclose(m @ on.fn_integrand(np.array([1.0, 5.0, 10.0, 100.0]))[0],
                                [0.005 + 0.001, 0.006, 0.001, 0.0])
 
 
@@ -206,13 +218,14 @@ def test_fn_uses_incremental_life_loss_and_natural_variability():
     stage = np.array([0.0, 10.0])
     cons = ConsequenceCurves(stage, np.zeros(2), np.zeros(2), np.array([10.0, 10.0]), np.array([4.0, 4.0]))
     always = FragilityCurve("table", stage=np.array([0.0, 10.0]), probability=np.array([1.0, 1.0]))
-    model = RiskModel(modes=(FailureMode("m", (always,)),), consequences=cons)
-    F = model.fn_integrand(np.array([5.0]), np.array([1.0, 6.0, 6.5]))
+    model = ResponseChain(failure_modes=(FailureMode("m", (always,)),), consequences=cons)
+    F = model.on(np.array([5.0])).fn_integrand(np.array([1.0, 6.0, 6.5]))[0]
     np.testing.assert_allclose(F, [[1.0, 1.0, 0.0]])
     # with stage scatter and a normal fragility, P_f is averaged over the same nodes as the indicator
     frag = FragilityCurve("normal", median=5.0, spread=0.4)
-    m2 = RiskModel(modes=(FailureMode("m", (frag,)),), consequences=cons, natural=StageSpread(0.3), hermite_nodes=24)
-    np.testing.assert_allclose(m2.fn_integrand(np.array([5.0]), np.array([1.0]))[0, 0], 0.5, atol=1e-12)
+    m2 = ResponseChain(failure_modes=(FailureMode("m", (frag,)),), consequences=cons, natural=StageSpread(0.3),
+                       hermite_nodes=24)
+    np.testing.assert_allclose(m2.on(np.array([5.0])).fn_integrand(np.array([1.0]))[0, 0, 0], 0.5, atol=1e-12)
 
 
 def test_linearity_note_with_knowledge_uncertainty(scenario_factory):
@@ -222,7 +235,7 @@ def test_linearity_note_with_knowledge_uncertainty(scenario_factory):
     res = assess(load_scenario(path))
     prop = res.propagation
     nominal = res.scenario.ensemble.weights @ prop.nominal_values
-    np.testing.assert_allclose(nominal, prop.masses_predictive @ prop.integrands, rtol=1e-10)
+    np.testing.assert_allclose(nominal, prop.point_masses_predictive @ prop.integrands, rtol=1e-10)
     note = next(n for n in res.notes if n.startswith("linearity"))
     assert float(note.rsplit(" ", 1)[1].rstrip(")")) < 1e-10
 

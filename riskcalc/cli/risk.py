@@ -58,7 +58,7 @@ def check(scenario: Path = typer.Argument(..., help="Scenario file (.toml).")):
 
     sc = load_scenario(scenario)
     typer.echo(f"{scenario}: valid. {sc.ensemble.size} realizations ({sc.ensemble.family}, {sc.ensemble.quantity}), "
-               f"{len(sc.model.modes)} failure mode(s): {', '.join(sc.model.mode_names)}; "
+               f"{len(sc.model.failure_modes)} failure mode(s): {', '.join(sc.model.failure_mode_names)}; "
                f"{len(sc.files)} input file(s).")
 
 

@@ -2,24 +2,46 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
-from ..response.consequences import Multiplier, read_consequence_table
+
 from ..errors import InputError
-from .schema import _file_name, _mode_key, check_section
-from ..response.chain import RiskModel
 from ..response import FailureMode, FragilityCurve, StageSpread, read_fragility_table, read_rating_table
+from ..response import uncertain as unc_
+from ..response.chain import ResponseChain
+from ..response.consequences import read_consequence_table
+from .schema import _file_name, _mode_key, check_section
+
+__all__ = ["build_model"]
 
 
-def _multiplier(d, file, key):
+def _multiplier(kind, d, file, key):
+    """A consequence multiplier: an uncertain parameter, or a constant factor (None, value)."""
     m = check_section("multiplier", d, file, key + ".")
-    try:
-        return Multiplier(**m)
-    except ValueError as exc:
-        raise InputError(str(exc), file, key=key) from None
+    dist = m["distribution"]
+    if dist not in ("fixed", "triangular", "lognormal"):
+        raise InputError(f"multiplier distribution '{dist}' is not fixed, triangular or lognormal", file, key=key)
+    if dist == "triangular":
+        if not (0 <= m["low"] <= m["mode"] <= m["high"] and m["high"] > m["low"]):
+            raise InputError("a triangular multiplier needs 0 <= low <= mode <= high and high > low", file, key=key)
+        return unc_.consequence_factor(kind, dist, low=m["low"], mode=m["mode"], high=m["high"]), 1.0
+    if dist == "lognormal":
+        if not (m["median"] > 0 and m["beta"] >= 0):
+            raise InputError("a lognormal multiplier needs median > 0 and beta >= 0", file, key=key)
+        if m["beta"] == 0:  # no spread: a constant factor
+            return None, m["median"]
+        return unc_.consequence_factor(kind, dist, median=m["median"], beta=m["beta"]), 1.0
+    return None, m["mode"]
 
 
-def build_model(d: dict, file, units: dict, variable: str) -> RiskModel:
-    """The response and consequence model from the scenario dict (validated here)."""
+def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
+    """The response chain from the scenario dict (validated here), with its registry of uncertain inputs.
+
+    Uncertain inputs are declared in the order rating offset, then per failure mode its shift and spread
+    factor, then the damage and life-loss multipliers (the order of the Monte Carlo draws). Inputs
+    without spread (a zero standard deviation, a range of one value, a fixed multiplier, a lognormal
+    multiplier with beta 0) are not uncertain: a constant factor is folded into the curves it scales.
+    """
     stage_u, q_u, cur = units["stage"], units["discharge"], units["currency"]
     rating = natural = None
     rd = d.get("rating") or {}
@@ -51,6 +73,7 @@ def build_model(d: dict, file, units: dict, variable: str) -> RiskModel:
     if not isinstance(fms, list) or not fms:
         raise InputError("expected at least one [[failure_modes]] entry", file, key="failure_modes")
     modes, seen = [], set()
+    params = [unc_.rating_offset(float(offset_sd))] if offset_sd > 0 else []
     for i, fm in enumerate(fms):
         key = f"failure_modes[{i + 1}]"
         f = check_section("failure_mode", fm, file, key + ".")
@@ -92,15 +115,27 @@ def build_model(d: dict, file, units: dict, variable: str) -> RiskModel:
             else:
                 raise InputError(f"'{n['kind']}' is not normal, lognormal or table", file, key=nkey + ".kind")
             nodes.append(node)
-        modes.append(FailureMode(f["name"], tuple(nodes), f["shift_sd"], tuple(float(v) for v in sr) if sr else None))
+        mode = FailureMode(f["name"], tuple(nodes))
+        if f["shift_sd"] > 0:
+            params.append(unc_.fragility_shift(i, f["name"], float(f["shift_sd"])))
+        if sr and mode.has_spread:
+            lo, hi = float(sr[0]), float(sr[1])
+            if hi > lo:
+                params.append(unc_.fragility_spread(i, f["name"], lo, hi))
+            elif lo != 1.0:  # a range of one value: a constant factor on the spreads
+                mode = FailureMode(mode.name, tuple(dataclasses.replace(n, spread=n.spread * lo) if n.kind != "table"
+                                                    else n for n in mode.nodes))
+        modes.append(mode)
     c = check_section("consequences", d.get("consequences"), file, "consequences.")
     _file_name(c["table"], file, "consequences.table")
     cons = read_consequence_table(c["table"], stage_unit=stage_u, currency=cur)
-    dm = _multiplier(c["damage_multiplier"], file, "consequences.damage_multiplier")
-    lm = _multiplier(c["life_loss_multiplier"], file, "consequences.life_loss_multiplier")
-    cons = type(cons)(**{**cons.__dict__, "damage_multiplier": dm, "life_loss_multiplier": lm})
+    dm, d_const = _multiplier("damage", c["damage_multiplier"], file, "consequences.damage_multiplier")
+    lm, l_const = _multiplier("life_loss", c["life_loss_multiplier"], file, "consequences.life_loss_multiplier")
+    if d_const != 1.0 or l_const != 1.0:
+        cons = cons.scaled(d_const, l_const)
+    params += [p for p in (dm, lm) if p is not None]
     unc = check_section("uncertainty", d.get("uncertainty", {}), file, "uncertainty.")
     if not 2 <= unc["hermite_nodes"] <= 64:
         raise InputError("expected 2 to 64 quadrature nodes", file, key="uncertainty.hermite_nodes")
-    return RiskModel(modes=tuple(modes), consequences=cons, rating=rating, natural=natural,
-                     rating_offset_sd=offset_sd, hermite_nodes=unc["hermite_nodes"])
+    return ResponseChain(failure_modes=tuple(modes), consequences=cons, rating=rating, natural=natural,
+                         uncertain=unc_.UncertainInputs(tuple(params), len(modes)), hermite_nodes=unc["hermite_nodes"])

@@ -240,7 +240,7 @@ def load_scenario(path) -> Scenario:
     inputs = [Path(hz["ensemble"])]
     if model.rating is not None:
         inputs.append(Path(model.rating.source))
-    for m in model.modes:
+    for m in model.failure_modes:
         inputs += [Path(n.source) for n in m.nodes if n.source]
     inputs.append(Path(model.consequences.source))
     inputs += _table_paths(top["alternatives"]) + _table_paths(top["economics"])

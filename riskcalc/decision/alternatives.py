@@ -51,17 +51,18 @@ import math
 from dataclasses import dataclass, field
 import numpy as np
 from . import economics as ec
-from ..risk.assess import build_grid, weighted_summary
+from ..risk.assess import build_grid
+from ..risk.records import weighted_summary
 from ..errors import InputError
 from ..hazard import read_ensemble
 from ..hazard.curves import mode_curve
 from ..hazard.families import FAMILIES
 from ..risk.integrate import cell_masses
-from ..risk.propagate import cell_integrands, chunk_rows_for, propagate
+from ..risk.propagate import chunk_rows_for, propagate
 from ..config.decision import BASE_NAME, EconomicSettings, parse_alternatives, parse_economics
 
 
-#: Risk measures carried through (integrand names of :class:`riskcalc.model.RiskModel`).
+#: Risk measures carried through (integrand names of :class:`riskcalc.response.chain.ResponseChain`).
 MEASURES = ("afp", "ead", "all", "all_incremental")
 
 
@@ -108,12 +109,7 @@ def plan_model(scenario, overrides=(), prefix="", damage_factor=1.0, life_loss_f
         raise InputError("alternatives share the base's Monte Carlo draws; set it in the base scenario",
                          scenario.path, key=f"{prefix}.uncertainty.draws_per_realization")
     if damage_factor != 1.0 or life_loss_factor != 1.0:
-        c = model.consequences
-        c = dataclasses.replace(c, damage_breach=c.damage_breach * damage_factor,
-                                damage_no_breach=c.damage_no_breach * damage_factor,
-                                life_loss_breach=c.life_loss_breach * life_loss_factor,
-                                life_loss_no_breach=c.life_loss_no_breach * life_loss_factor)
-        model = dataclasses.replace(model, consequences=c)
+        model = dataclasses.replace(model, consequences=model.consequences.scaled(damage_factor, life_loss_factor))
     return model
 
 
@@ -147,26 +143,10 @@ def _future_ensemble(scenario, settings):
     return ens, {k: float(v) for k, v in (mode or {}).items()}
 
 
-def sampling_signature(model) -> tuple:
-    """The sequence of random draws :meth:`RiskModel.sample` makes, one entry a sampled parameter.
-
-    Two models with the same signature, given the same generator state and
-    number of draws, get the same underlying random numbers for each
-    parameter (common random numbers), whatever the parameters' values.
-    """
-    sig = []
-    if model.rating_offset_sd > 0:
-        sig.append(("rating offset", "normal"))
-    for m in model.modes:
-        if m.shift_sd > 0:
-            sig.append((f"shift:{m.name}", "normal"))
-        if m.spread_range is not None:
-            sig.append((f"spread:{m.name}", "uniform"))
-    c = model.consequences
-    for label, mult in (("damage multiplier", c.damage_multiplier), ("life-loss multiplier", c.life_loss_multiplier)):
-        if mult.active:
-            sig.append((label, mult.distribution))
-    return tuple(sig)
+def sampling_signature(chain) -> tuple:
+    """The sequence of random draws a plan's Monte Carlo makes: the signature of its registry of uncertain
+    inputs (:attr:`riskcalc.response.uncertain.UncertainInputs.signature`)."""
+    return chain.uncertain.signature
 
 
 @dataclass(frozen=True, eq=False)
@@ -250,8 +230,7 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
             w = np.repeat(prop.weights / rep, rep)
             if weights is None:
                 weights, realization = w, np.repeat(prop.realization, rep)
-            G = cell_integrands(m, grids[year], rule, log_spacing)
-            mode_vals = dict(zip(m.output_names(), modes[year] @ G))
+            mode_vals = dict(zip(prop.names, prop.on_measure(modes[year])))
             risks.setdefault(plan, []).append(PlanRisk(plan=plan, year=year, values=vals,
                                                        mode={n: float(mode_vals[n]) for n in MEASURES},
                                                        signature=sampling_signature(m),
@@ -336,8 +315,7 @@ def _fn_point(afp, all_incremental, lines):
 
 def _stats(values, weights):
     s, se = weighted_summary(values, weights)
-    s["mc_standard_error"] = se
-    return s
+    return {**s.as_dict(), "mc_standard_error": se}
 
 
 def _ratio(a, b):

@@ -6,7 +6,7 @@ import html
 from pathlib import Path
 import numpy as np
 from ..decision import economics as ec
-from ..risk.assess import CAUTION_TEXT
+from .summary import CAUTION_TEXT
 from ..io import to_plain as _plain
 from ..config.decision import BASE_NAME
 from ..decision.alternatives import Comparison, _fn_point, _guideline_lines, _stats

@@ -290,7 +290,7 @@ def plot_aep_distribution(result, path_stem=None):
     sc, crest = result.scenario, result.crest
     ens = sc.ensemble
     q = ens.quantity
-    x = crest["mode"][q]
+    x = crest.mode.quantity
     p = ens.aep(np.array([x]))[:, 0]
     with plt.rc_context(_rc()):
         fig, ax = plt.subplots(figsize=(7.0, 4.0))
@@ -349,15 +349,15 @@ def plot_response(result, path_stem=None):
             ax.legend(loc="upper left")
         ax = axes[-1]
         h = stage[plausible]
-        modes = sc.model.mode_names
+        modes = sc.model.failure_mode_names
         if len(modes) > 1:
             for i, name in enumerate(modes):
                 st = SERIES[i % len(SERIES)]
                 ax.plot(h, df[f"p_failure_{name.replace(' ', '_')}"].to_numpy()[plausible], color=st["color"],
-                        ls=st["ls"], lw=1.5, label=f"mode: {_t(name)}")
+                        ls=st["ls"], lw=1.5, label=f"failure mode: {_t(name)}")
             ax.plot(h, df["p_failure_lower_bound"].to_numpy()[plausible], color="#9a9a9a", lw=1.0,
-                    ls=(0, (1, 1)), label="lower bound maxᵢ Pᵢ (fully dependent modes)")
-            sys_label = "system, independent modes 1 − Π(1 − Pᵢ)"
+                    ls=(0, (1, 1)), label="lower bound maxᵢ Pᵢ (fully dependent failure modes)")
+            sys_label = "system, independent failure modes 1 − Π(1 − Pᵢ)"
         else:
             sys_label = f"system (one mode: {_t(modes[0])})"
         ax.plot(h, df["p_failure_system"].to_numpy()[plausible], **STYLE["predictive"], label=sys_label)
@@ -415,11 +415,8 @@ def plot_consequences(result, path_stem=None):
             ax.grid(True, color=STYLE["grid"], lw=0.6)
             ax.legend(loc="upper left")
             ax.set_ylim(bottom=0)
-        txt = []
-        if c.damage_multiplier.active:
-            txt.append(f"damage × {c.damage_multiplier.distribution} multiplier per draw")
-        if c.life_loss_multiplier.active:
-            txt.append(f"life loss × {c.life_loss_multiplier.distribution} multiplier per draw")
+        txt = [f"{p.description.split(',')[0]} per draw" for p in sc.model.uncertain.parameters
+               if p.source == "consequences"]
         if txt:
             fig.text(0.5, -0.02, "Points: consequence table rows; values held beyond its ends. Nominal curves; " + "; ".join(txt) + " (knowledge uncertainty).", ha="center",
                      fontsize=7.5)

@@ -6,6 +6,7 @@ import numpy as np
 import pandas as pd
 
 from ..io import unit_suffix
+from ..response.chain import failure_mode_output
 
 __all__ = ["hazard_by_quantity", "hazard_by_aep"]
 
@@ -68,7 +69,7 @@ def per_draw_table(result) -> pd.DataFrame:
               "ead_incremental": f"ead_incremental_{cur}_per_yr", "all": "all_lives_per_yr",
               "all_incremental": "all_incremental_lives_per_yr"}
     for i, n in enumerate(prop.names):
-        key = rename.get(n, "afp_per_yr_" + n.split(":", 1)[1].replace(" ", "_") if n.startswith("afp_mode:") else n)
+        key = rename.get(n, "afp_per_yr_" + n.split(":", 1)[1].replace(" ", "_") if n.startswith("afp_fm:") else n)
         cols[key] = prop.values[:, i]
     return pd.DataFrame(cols)
 
@@ -87,10 +88,10 @@ def fn_table(result) -> pd.DataFrame:
 def response_table(result, n=400) -> pd.DataFrame:
     """Stage, failure probabilities and nominal consequences along the hazard quantity."""
     sc = result.scenario
-    model = sc.model
+    chain = sc.model
     x = np.geomspace(result.grid[0], result.grid[-1], n) if result.curves.log_scale else np.linspace(
         result.grid[0], result.grid[-1], n)
-    v = model.consequence_curves_at(x)
+    v = chain.on(x).curves()
     u, cur = sc.units, sc.units["currency"]
     q = sc.ensemble.quantity
     out = {f"{q}_{u['discharge'] if q == 'discharge' else u['stage']}": x,
@@ -99,8 +100,8 @@ def response_table(result, n=400) -> pd.DataFrame:
                                        result.propagation.aep_predictive)}
     if q == "discharge":
         out[f"stage_{u['stage']}"] = v["stage"]
-    for name in model.mode_names:
-        out[f"p_failure_{name.replace(' ', '_')}"] = v[f"afp_mode:{name}"]
+    for name in chain.failure_mode_names:
+        out[f"p_failure_{name.replace(' ', '_')}"] = v[failure_mode_output(name)]
     out["p_failure_system"] = v["afp"]
     out["p_failure_lower_bound"] = v["afp_lower_bound"]
     out[f"damage_breach_{cur}"] = v["damage_breach"]
@@ -120,3 +121,12 @@ def aep_band_table(result) -> pd.DataFrame:
         f"ead_{cur}_per_yr": result.contributions["expected_annual_damage"]["values"],
         "all_lives_per_yr": result.contributions["annualized_life_loss"]["values"],
     })
+
+
+def run_tables(result) -> dict:
+    """The run's tidy tables, keyed by their file stem under ``tables/``."""
+    q = result.curves.quantity
+    return {"per_draw": per_draw_table(result), "fn_curve": fn_table(result),
+            f"hazard_by_{q}": hazard_by_quantity(result.curves), "hazard_by_aep": hazard_by_aep(result.curves),
+            f"response_by_{result.scenario.ensemble.quantity}": response_table(result),
+            "risk_by_aep_band": aep_band_table(result)}

@@ -1,21 +1,41 @@
-"""The response and consequence chain evaluated on the grid: integrands of the risk integrals.
+"""The response chain: stage, failure modes, system P_f and consequences, as integrands on points.
 
 For a peak quantity x (discharge, or stage when the hazard is a stage-frequency
 ensemble) the chain is
 
-    stage h(x)  ->  mode probabilities P_i(h)  ->  system P_f = 1 − Π(1 − P_i)
+    stage h(x)  ->  failure-mode probabilities P_i(h)  ->  system P_f = 1 − Π(1 − P_i)
                 ->  consequences D_b(h), D_nb(h), L_b(h), L_nb(h)
 
-and the integrands are AFP g = P_f, EAD g = P_f D_b + (1 − P_f) D_nb, ALL
-g = P_f L_b + (1 − P_f) L_nb, with the incremental parts P_f (D_b − D_nb) and
-P_f (L_b − L_nb), and the lower unimodal bound max_i P_i.
+and the integrands of the risk integrals are (:data:`OUTPUTS`)
+
+    afp               P_f
+    afp_lower_bound   max_i P_i                      (fully dependent failure modes)
+    ead               P_f D_b + (1 − P_f) D_nb
+    ead_incremental   P_f (D_b − D_nb)
+    all               P_f L_b + (1 − P_f) L_nb
+    all_incremental   P_f (L_b − L_nb)
+    afp_fm:<name>     P_i of each failure mode
 
 Natural variability of stage about the rating curve, ε ~ N(0, σ(x)), is folded
-in by Gauss-Hermite quadrature: g*(x) = E_ε[g(h(x) + ε)], applied to the whole
-integrand (failure and consequences see the same stage). Knowledge
-uncertainty (a rating offset, shifts and spreads of the failure modes, damage
-and life-loss multipliers) is a set of parameters drawn once per Monte Carlo
-draw; :class:`ResponseDraws` holds them.
+in by Gauss-Hermite quadrature over the whole integrand, g*(x) = E_ε[g(h(x) + ε)]
+(failure and consequences see the same stage). Knowledge uncertainty enters as
+:class:`~riskcalc.response.uncertain.ResponseParameters`, one set per draw,
+derived from the chain's registry of uncertain inputs.
+
+This is the only implementation of the chain. The Monte Carlo, the Sobol'
+evaluator, the alternatives, the F-N curve and the tables all call
+:meth:`ResponseChain.on`, which fixes the evaluation points once (stages at the
+quadrature nodes) and evaluates rows of parameters with caching: each failure
+mode is computed once per distinct (offset, shift, spread), the consequences
+once per distinct offset, the consequence factors applied after the integral.
+In a Saltelli design most rows share those with a neighbour, which is what makes
+the Sobol' path fast; in a Monte Carlo chunk every row differs and the caching
+costs one sort.
+
+References
+----------
+.. [1] Abramowitz, M. and Stegun, I.A. (1964). Handbook of Mathematical
+   Functions, 25.4.46 (Gauss-Hermite quadrature).
 """
 
 from __future__ import annotations
@@ -25,187 +45,327 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .consequences import ConsequenceCurves
-from .fragility import combine_independent
 from .rating import RatingCurve, StageSpread, gauss_hermite_normal
+from .uncertain import ResponseParameters, UncertainInputs
 
-__all__ = ["RiskModel", "ResponseDraws", "OUTPUTS"]
+__all__ = ["ResponseChain", "ChainOnPoints", "OUTPUTS", "HEADLINE_OUTPUTS", "failure_mode_output"]
 
-#: Integrand names, in column order.
+#: Integrand names of every chain, in column order (per-failure-mode AFPs follow).
 OUTPUTS = ("afp", "afp_lower_bound", "ead", "ead_incremental", "all", "all_incremental")
+#: The three headline integrands.
+HEADLINE_OUTPUTS = ("afp", "ead", "all")
+_FM_PREFIX = "afp_fm:"
+
+
+def failure_mode_output(name: str) -> str:
+    """The integrand (and per-draw column) name of one failure mode's AFP."""
+    return _FM_PREFIX + name
 
 
 @dataclass(frozen=True, eq=False)
-class ResponseDraws:
-    """Knowledge-uncertainty parameters for D draws (each array (D,); mode arrays (n_modes, D))."""
-
-    rating_offset: np.ndarray
-    mode_shift: np.ndarray
-    mode_spread: np.ndarray
-    damage_multiplier: np.ndarray
-    life_loss_multiplier: np.ndarray
-
-    @property
-    def size(self):
-        return self.rating_offset.size
-
-    def take(self, idx):
-        return ResponseDraws(self.rating_offset[idx], self.mode_shift[:, idx], self.mode_spread[:, idx],
-                             self.damage_multiplier[idx], self.life_loss_multiplier[idx])
-
-
-@dataclass(frozen=True, eq=False)
-class RiskModel:
-    """Rating (optional), failure modes and consequences.
+class ResponseChain:
+    """Rating (optional), failure modes, consequences and their uncertain inputs.
 
     Attributes
     ----------
-    modes : tuple of FailureMode
+    failure_modes : tuple of FailureMode
     consequences : ConsequenceCurves
     rating : RatingCurve or None
         None when the hazard is already peak stage.
     natural : StageSpread or None
         Natural variability of stage (aleatory, Gauss-Hermite).
-    rating_offset_sd : float
-        Knowledge uncertainty of the rating: sd of a stage offset drawn per draw [stage units].
+    uncertain : UncertainInputs
+        The registry of knowledge-uncertain parameters.
     hermite_nodes : int
     """
 
-    modes: tuple
+    failure_modes: tuple
     consequences: ConsequenceCurves
     rating: RatingCurve | None = None
     natural: StageSpread | None = None
-    rating_offset_sd: float = 0.0
+    uncertain: UncertainInputs | None = None
     hermite_nodes: int = 16
-    mode_names: tuple = field(default=())
 
     def __post_init__(self):
-        names = [m.name for m in self.modes]
+        names = [m.name for m in self.failure_modes]
+        if not names:
+            raise ValueError("at least one failure mode is needed")
         if len(set(names)) != len(names):
             raise ValueError("failure-mode names must be unique")
-        if not self.modes:
-            raise ValueError("at least one failure mode is needed")
-        object.__setattr__(self, "mode_names", tuple(names))
+        if self.uncertain is None:
+            object.__setattr__(self, "uncertain", UncertainInputs((), len(names)))
+        elif self.uncertain.n_failure_modes != len(names):
+            raise ValueError("the uncertain inputs describe a different number of failure modes")
 
-    # ------------------------------------------------------------------
+    # -- names -------------------------------------------------------------
+    @property
+    def failure_mode_names(self) -> tuple:
+        return tuple(m.name for m in self.failure_modes)
+
+    def output_names(self) -> tuple:
+        return OUTPUTS + tuple(failure_mode_output(n) for n in self.failure_mode_names)
+
     @property
     def has_knowledge_uncertainty(self) -> bool:
-        return bool(self.rating_offset_sd > 0
-                    or any(m.shift_sd > 0 or m.spread_range is not None for m in self.modes)
-                    or self.consequences.damage_multiplier.active or self.consequences.life_loss_multiplier.active)
+        return self.uncertain.active
 
-    def stage_at(self, x):
+    @property
+    def natural_active(self) -> bool:
+        return self.natural is not None and self.natural.active
+
+    # -- stage ---------------------------------------------------------------
+    def stage_at(self, x) -> np.ndarray:
+        """Stage at quantities ``x`` from the rating (the quantity itself for a stage hazard)."""
         return np.asarray(x, float) if self.rating is None else self.rating.stage_at(x)
 
-    def sample(self, rng, n) -> ResponseDraws:
-        """Draw ``n`` sets of knowledge-uncertainty parameters with ``rng``."""
-        nm = len(self.modes)
-        off = rng.normal(0.0, self.rating_offset_sd, n) if self.rating_offset_sd > 0 else np.zeros(n)
-        shift = np.zeros((nm, n))
-        spread = np.ones((nm, n))
-        for i, m in enumerate(self.modes):
-            if m.shift_sd > 0:
-                shift[i] = rng.normal(0.0, m.shift_sd, n)
-            if m.spread_range is not None:
-                spread[i] = rng.uniform(m.spread_range[0], m.spread_range[1], n)
-        c = self.consequences
-        return ResponseDraws(off, shift, spread, c.damage_multiplier.sample(rng, n),
-                             c.life_loss_multiplier.sample(rng, n))
+    def stages(self, x):
+        """Stages (P, n) at the Gauss-Hermite nodes of natural variability, and the node weights (n,).
 
-    def nominal(self, n=1) -> ResponseDraws:
-        """The nominal parameters (no offset or shift, spread factor 1, multipliers at their nominal values)."""
-        nm = len(self.modes)
-        c = self.consequences
-        return ResponseDraws(np.zeros(n), np.zeros((nm, n)), np.ones((nm, n)),
-                             np.full(n, c.damage_multiplier.nominal), np.full(n, c.life_loss_multiplier.nominal))
+        Without natural variability: stages (P, 1) and weights [1].
+        """
+        x = np.asarray(x, float)
+        h0 = self.stage_at(x)
+        if not self.natural_active:
+            return h0[:, None], np.ones(1)
+        z, w = gauss_hermite_normal(self.hermite_nodes)
+        sd = self.natural.at(x) if self.rating is not None else self.natural.at(np.maximum(x, 1e-300))
+        return h0[:, None] + sd[:, None] * z[None, :], w
 
-    # ------------------------------------------------------------------
-    def _at_stage(self, h, shift, spread, dmul, lmul):
-        """Integrands at stages h; parameters broadcast against h. Returns dict of arrays shaped like h."""
-        p_modes = np.stack([m.prob(h, shift[i], spread[i]) for i, m in enumerate(self.modes)])
-        pf = combine_independent(p_modes)
-        db, dn, lb, ln = self.consequences.at(h)
-        db, dn, lb, ln = db * dmul, dn * dmul, lb * lmul, ln * lmul
-        out = {
-            "afp": pf,
-            "afp_lower_bound": p_modes.max(axis=0),
-            "ead": pf * db + (1 - pf) * dn,
-            "ead_incremental": pf * (db - dn),
-            "all": pf * lb + (1 - pf) * ln,
-            "all_incremental": pf * (lb - ln),
-        }
-        for i, name in enumerate(self.mode_names):
-            out[f"afp_mode:{name}"] = p_modes[i]
+    def on(self, points) -> ChainOnPoints:
+        """The chain bound to evaluation points (P,): stages and quadrature fixed once."""
+        pts = np.asarray(points, float)
+        h, w = self.stages(pts)
+        c = self.consequences
+        has = {"damage": bool(np.any(c.damage_breach != 0) or np.any(c.damage_no_breach != 0)),
+               "life_loss": bool(np.any(c.life_loss_breach != 0) or np.any(c.life_loss_no_breach != 0))}
+        return ChainOnPoints(chain=self, points=pts, stage=h, node_weights=w, _has=has)
+
+    # -- convenience ------------------------------------------------------
+    def integrands(self, x, params: ResponseParameters | None = None) -> np.ndarray:
+        """Every integrand at quantities ``x`` (Q,): (Q, K) nominal, or (D, Q, K) for D parameter sets."""
+        on = self.on(x)
+        names = self.output_names()
+        p = self.uncertain.nominal(1) if params is None else params
+        g, inv = on.integrands(p, names)
+        out = np.stack([_gather(g[k], inv) for k in names], axis=-1)  # (D, Q, K)
+        if params is None:
+            return out[0]
         return out
 
-    def output_names(self):
-        return OUTPUTS + tuple(f"afp_mode:{n}" for n in self.mode_names)
 
-    def integrands(self, x, draws: ResponseDraws | None = None):
-        """Integrands at quantities ``x`` (Q,).
+def _unique(*cols):
+    """Distinct rows of the stacked columns: (values (U, k), inverse (B,))."""
+    key = np.stack([np.asarray(c, float) for c in cols], axis=1)
+    if key.shape[0] == 1 or np.all(key == key[:1]):
+        return key[:1], np.zeros(key.shape[0], np.intp)
+    u, inv = np.unique(key, axis=0, return_inverse=True)
+    return u, inv.reshape(-1)
 
-        With ``draws`` None: nominal parameters, returns an array (Q, K) with K = len(output_names()).
-        With D draws: returns (D, Q, K).
+
+def _take(a, inv):
+    """Rows ``a[inv]``, or the single row (broadcastable) when ``a`` has one."""
+    return a[:1] if a.shape[0] == 1 else a[inv]
+
+
+def _gather(a, inv):
+    """Rows ``a[inv]`` with the full leading length."""
+    return a[np.zeros(inv.size, np.intp)] if a.shape[0] == 1 else a[inv]
+
+
+@dataclass(frozen=True, eq=False)
+class ChainOnPoints:
+    """A :class:`ResponseChain` at fixed evaluation points: stages at the quadrature nodes precomputed.
+
+    Attributes
+    ----------
+    chain : ResponseChain
+    points : ndarray (P,)
+        Quantities where the integrands are evaluated.
+    stage : ndarray (P, n)
+        Stage at every point and quadrature node of natural variability.
+    node_weights : ndarray (n,)
+    """
+
+    chain: ResponseChain
+    points: np.ndarray
+    stage: np.ndarray
+    node_weights: np.ndarray
+    _has: dict = field(default_factory=dict, repr=False)
+
+    @property
+    def size(self) -> int:
+        return int(self.points.size)
+
+    def _nodes(self, a):
+        """Average over the quadrature nodes: (..., P, n) -> (..., P)."""
+        return a[..., 0] if self.node_weights.size == 1 else a @ self.node_weights
+
+    def integrands(self, params: ResponseParameters, outputs=HEADLINE_OUTPUTS):
+        """Integrands of distinct parameter sets, consequence factors excluded.
+
+        Parameters
+        ----------
+        params : ResponseParameters of B draws
+        outputs : sequence of str
+            Names from :meth:`ResponseChain.output_names`.
+
+        Returns
+        -------
+        values : dict of str to ndarray (U, P)
+            Integrands of the U distinct (offset, shifts, spreads) among the B draws, with damage and
+            life-loss factors 1 (they multiply the integrals afterwards).
+        inverse : ndarray (B,) of int
+            Draw b uses row ``inverse[b]``.
         """
-        x = np.asarray(x, float)
-        h0 = self.stage_at(x)
-        single = draws is None
-        d = self.nominal(1) if single else draws
-        # parameters as (D, 1[, 1]) against stages (Q[, nodes])
-        if self.natural is not None and self.natural.active:
-            z, w = gauss_hermite_normal(self.hermite_nodes)
-            sd = self.natural.at(x) if self.rating is not None else self.natural.at(np.maximum(x, 1e-300))
-            h = (h0[:, None] + sd[:, None] * z[None, :])[None, :, :]  # (1, Q, n)
-            expand = (slice(None), None, None)
-        else:
-            w = None
-            h = h0[None, :]
-            expand = (slice(None), None)
-        h = h + d.rating_offset[expand]
-        shift = d.mode_shift[(slice(None),) + expand]
-        spread = d.mode_spread[(slice(None),) + expand]
-        vals = self._at_stage(h, shift, spread, d.damage_multiplier[expand], d.life_loss_multiplier[expand])
-        names = self.output_names()
-        if w is not None:
-            out = np.stack([vals[k] @ w for k in names], axis=-1)
-        else:
-            out = np.stack([np.broadcast_to(vals[k], h.shape) for k in names], axis=-1)
-        return out[0] if single else out
+        ch, h = self.chain, self.stage
+        modes = ch.failure_modes
+        nm = len(modes)
+        outputs = tuple(outputs)
+        uj, invj = _unique(params.stage_offset, *params.fm_shift, *params.fm_spread)
+        U = uj.shape[0]
+        off_u, shift_u, spread_u = uj[:, 0], uj[:, 1:1 + nm].T, uj[:, 1 + nm:].T
+        ext = (slice(None), None, None)
+        want_fm = [i for i, n in enumerate(ch.failure_mode_names) if failure_mode_output(n) in outputs]
+        need_bound = "afp_lower_bound" in outputs
+        need_pf = any(k in outputs for k in ("afp", "ead", "ead_incremental", "all", "all_incremental"))
+        out = {}
+        pf = bound = None
+        for i, mode in enumerate(modes):
+            u, inv = _unique(off_u, shift_u[i], spread_u[i])
+            p = mode.prob(h[None] + u[:, 0][ext], u[:, 1][ext], u[:, 2][ext])  # (u_i, P, n)
+            if i in want_fm:
+                out[failure_mode_output(mode.name)] = self._nodes(_take(p, inv))
+            if need_bound:
+                pb = _take(p, inv)
+                bound = pb if bound is None else np.maximum(bound, pb)
+            if not need_pf:
+                continue
+            if nm == 1:
+                pf = _take(p, inv)
+                break
+            q = np.clip(p, 0.0, 1.0)
+            np.negative(q, out=q)
+            with np.errstate(divide="ignore"):  # P_i = 1 gives log 0 = -inf, hence P_f = 1 exactly
+                np.log1p(q, out=q)
+            li = _take(q, inv)  # independent failure modes: P_f = -expm1(sum_i log1p(-P_i))
+            pf = li.copy() if pf is None else pf + li
+        if need_pf and nm > 1:
+            pf = -np.expm1(pf)
+        if need_bound:
+            out["afp_lower_bound"] = self._nodes(bound)
+        if "afp" in outputs:
+            out["afp"] = self._nodes(pf)
+        if any(k in outputs for k in ("ead", "ead_incremental", "all", "all_incremental")):
+            u, inv = _unique(off_u)
+            hc = h[None] + u[:, 0][ext]
+            c = ch.consequences
+            for has, base, top, total, inc in (("damage", c.damage_no_breach, c.damage_breach, "ead",
+                                                "ead_incremental"),
+                                               ("life_loss", c.life_loss_no_breach, c.life_loss_breach, "all",
+                                                "all_incremental")):
+                if total not in outputs and inc not in outputs:
+                    continue
+                if not self._has[has]:
+                    zero = np.zeros((1, self.size))
+                    for k in (total, inc):
+                        if k in outputs:
+                            out[k] = zero
+                    continue
+                # linear in stage, ends held (ConsequenceCurves.at); only the fields that are not zero
+                d_inc = _take(np.interp(hc, c.stage, top - base), inv) if np.any(top != base) else np.zeros((1,) + h.shape)
+                part = pf * d_inc
+                if inc in outputs:
+                    out[inc] = self._nodes(part)
+                if total in outputs:
+                    out[total] = self._nodes(part + _take(np.interp(hc, c.stage, base), inv)) if np.any(base != 0) \
+                        else (out[inc] if inc in outputs else self._nodes(part))
+        shape = (U, self.size)
+        return {k: np.broadcast_to(out[k], shape) for k in outputs}, invj
 
-    def _stages_and_weights(self, x):
-        """Stages (Q, n) at the quadrature nodes of natural variability and their weights (n,)."""
-        x = np.asarray(x, float)
-        h0 = self.stage_at(x)
-        if self.natural is not None and self.natural.active:
-            z, w = gauss_hermite_normal(self.hermite_nodes)
-            sd = self.natural.at(x) if self.rating is not None else self.natural.at(np.maximum(x, 1e-300))
-            return h0[:, None] + sd[:, None] * z[None, :], w
-        return h0[:, None], np.ones(1)
+    def factors(self, params: ResponseParameters, outputs) -> np.ndarray:
+        """Consequence factor of each output and draw: (K, B) (1 for probabilities)."""
+        rows = []
+        for k in outputs:
+            if k in ("ead", "ead_incremental"):
+                rows.append(params.damage_factor)
+            elif k in ("all", "all_incremental"):
+                rows.append(params.life_loss_factor)
+            else:
+                rows.append(np.ones(params.size))
+        return np.stack(rows)
 
-    def fn_integrand(self, x, levels) -> np.ndarray:
-        """F-N integrand at quantities x (Q,) and life-loss levels N (L,), nominal response: (Q, L).
+    def risk(self, masses, params: ResponseParameters, outputs=HEADLINE_OUTPUTS) -> np.ndarray:
+        """Risk integrals of B draws: masses (B, P) or (P,) against their response parameters -> (B, K).
 
-        E_ε[P_f(h + ε) 1[L_inc(h + ε) >= N]] with L_inc = life loss given breach minus given no breach
-        (the life loss the failure causes), over the natural variability of stage.
+        ``sum_p masses[b, p] g_k(x_p; params_b)``, consequence factors applied after the sum.
         """
-        h, w = self._stages_and_weights(x)
-        d = self.nominal(1)
-        v = self._at_stage(h, d.mode_shift[:, 0], d.mode_spread[:, 0], 1.0, 1.0)
-        _, _, lb, ln = self.consequences.at(h)
-        inc = (lb - ln) * self.consequences.life_loss_multiplier.nominal
-        ind = inc[:, :, None] >= np.asarray(levels, float)[None, None, :]
-        return np.einsum("qn,qnl,n->ql", v["afp"], ind, w)
+        w = np.asarray(masses, float)
+        B = params.size
+        if w.ndim == 1:
+            w = np.broadcast_to(w, (B, w.size))
+        g, inv = self.integrands(params, outputs)
+        res = np.empty((len(outputs), B))
+        for j, k in enumerate(outputs):
+            a = g[k]
+            res[j] = w @ a[0] if a.shape[0] == 1 else np.einsum("bp,bp->b", w, a[inv])
+        res *= self.factors(params, outputs)
+        return res.T
 
-    def max_incremental_life_loss(self, x) -> float:
-        """Largest nominal incremental life loss at quantities x (over the quadrature nodes)."""
-        h, _ = self._stages_and_weights(x)
-        _, _, lb, ln = self.consequences.at(h)
-        return float(np.max((lb - ln) * self.consequences.life_loss_multiplier.nominal, initial=0.0))
+    def nominal_integrands(self, outputs=None) -> np.ndarray:
+        """Integrands with the nominal response parameters: (P, K)."""
+        outputs = self.chain.output_names() if outputs is None else tuple(outputs)
+        p = self.chain.uncertain.nominal(1)
+        g, _ = self.integrands(p, outputs)
+        return np.stack([g[k][0] for k in outputs], axis=1) * self.factors(p, outputs)[:, 0]
 
-    def consequence_curves_at(self, x):
-        """Nominal consequences and P_f at quantities x (for tables and figures): dict of (Q,) arrays."""
-        h = self.stage_at(np.asarray(x, float))
-        d = self.nominal(1)
-        vals = self._at_stage(h, d.mode_shift[:, 0], d.mode_spread[:, 0], 1.0, 1.0)
-        db, dn, lb, ln = self.consequences.at(h)
+    def incremental_life_loss(self, params: ResponseParameters | None = None) -> np.ndarray:
+        """Incremental life loss L_b − L_nb at every point and node: (D, P, n) (nominal: D = 1)."""
+        p = self.chain.uncertain.nominal(1) if params is None else params
+        c = self.chain.consequences
+        h = self.stage[None] + p.stage_offset[:, None, None]
+        return np.interp(h, c.stage, c.life_loss_breach - c.life_loss_no_breach) * p.life_loss_factor[:, None, None]
+
+    def fn_integrand(self, levels, params: ResponseParameters | None = None) -> np.ndarray:
+        """F-N integrand: E_ε[P_f(h + ε) 1[L_inc(h + ε) >= N]] at every point and level: (D, P, L).
+
+        With ``params`` None the nominal response (D = 1). L_inc is the incremental life loss (given breach
+        minus given no breach), the life loss the failure causes.
+        """
+        p = self.chain.uncertain.nominal(1) if params is None else params
+        lv = np.asarray(levels, float)
+        pf_nodes = self._pf_at_nodes(p)  # (D, P, n)
+        inc = self.incremental_life_loss(p)  # (D, P, n)
+        ind = inc[..., None] >= lv  # (D, P, n, L)
+        return np.einsum("dpn,dpnl,n->dpl", pf_nodes, ind, self.node_weights)
+
+    def _pf_at_nodes(self, p: ResponseParameters) -> np.ndarray:
+        """System P_f at every draw, point and node, not yet averaged: (D, P, n)."""
+        h = self.stage[None] + p.stage_offset[:, None, None]
+        lp = np.zeros(np.broadcast_shapes(h.shape))
+        for i, mode in enumerate(self.chain.failure_modes):
+            q = np.clip(mode.prob(h, p.fm_shift[i][:, None, None], p.fm_spread[i][:, None, None]), 0.0, 1.0)
+            with np.errstate(divide="ignore"):
+                lp += np.log1p(-q)
+        return -np.expm1(lp)
+
+    def max_incremental_life_loss(self) -> float:
+        """Largest nominal incremental life loss at the points (over the quadrature nodes)."""
+        return float(np.max(self.incremental_life_loss(), initial=0.0))
+
+    def curves(self) -> dict:
+        """Nominal stage, P_f, failure-mode probabilities and consequences at the points, without natural
+        variability (for tables and figures): dict of (P,) arrays."""
+        ch = self.chain
+        bare = ch.on(self.points) if not ch.natural_active else ChainOnPoints(
+            chain=ch, points=self.points, stage=ch.stage_at(self.points)[:, None], node_weights=np.ones(1),
+            _has=self._has)
+        names = ch.output_names()
+        G = bare.nominal_integrands(names)
+        vals = {k: G[:, j] for j, k in enumerate(names)}
+        h = bare.stage[:, 0]
+        nominal = ch.uncertain.nominal(1)
+        dmul, lmul = float(nominal.damage_factor[0]), float(nominal.life_loss_factor[0])
+        db, dn, lb, ln = ch.consequences.at(h)
+        db, dn, lb, ln = db * dmul, dn * dmul, lb * lmul, ln * lmul
         vals.update(stage=h, damage_breach=db, damage_no_breach=dn, life_loss_breach=lb, life_loss_no_breach=ln)
         return vals

@@ -10,8 +10,9 @@ A consequence table has a ``stage`` column and any of
 
 Values are interpolated linearly in stage and held constant beyond the table's
 ends (documented; a table should start at a stage with no damage). Missing
-columns are zero. Uncertainty enters through multipliers sampled per Monte
-Carlo draw: triangular (low, mode, high) or lognormal (median, β).
+columns are zero. Uncertainty enters through damage and life-loss factors
+declared in the chain's registry of uncertain inputs
+(:func:`riskcalc.response.uncertain.consequence_factor`).
 
 References
 ----------
@@ -28,69 +29,9 @@ import numpy as np
 from ..errors import InputError
 from ..io import read_table, split_unit
 
-__all__ = ["ConsequenceCurves", "Multiplier", "read_consequence_table", "CONSEQUENCE_FIELDS"]
+__all__ = ["ConsequenceCurves", "read_consequence_table", "CONSEQUENCE_FIELDS"]
 
 CONSEQUENCE_FIELDS = ("damage_breach", "damage_no_breach", "life_loss_breach", "life_loss_no_breach")
-
-
-@dataclass(frozen=True, eq=False)
-class Multiplier:
-    """A random multiplier on a consequence, sampled once per Monte Carlo draw.
-
-    ``triangular``: low <= mode <= high (scipy/numpy triangular); ``lognormal``: median·exp(β Z);
-    ``fixed``: always ``mode`` (1 by default).
-    """
-
-    distribution: str = "fixed"
-    low: float = 1.0
-    mode: float = 1.0
-    high: float = 1.0
-    median: float = 1.0
-    beta: float = 0.0
-
-    def __post_init__(self):
-        if self.distribution not in ("fixed", "triangular", "lognormal"):
-            raise ValueError(f"multiplier distribution '{self.distribution}' is not fixed, triangular or lognormal")
-        if self.distribution == "triangular" and not (0 <= self.low <= self.mode <= self.high and self.high > self.low):
-            raise ValueError("a triangular multiplier needs 0 <= low <= mode <= high and high > low")
-        if self.distribution == "lognormal" and not (self.median > 0 and self.beta >= 0):
-            raise ValueError("a lognormal multiplier needs median > 0 and beta >= 0")
-
-    @property
-    def active(self) -> bool:
-        return self.distribution != "fixed"
-
-    @property
-    def nominal(self) -> float:
-        """Value used for the mode and median curves: the mode (triangular) or median (lognormal)."""
-        return {"fixed": self.mode, "triangular": self.mode, "lognormal": self.median}[self.distribution]
-
-    @property
-    def mean(self) -> float:
-        if self.distribution == "triangular":
-            return (self.low + self.mode + self.high) / 3
-        if self.distribution == "lognormal":
-            return self.median * np.exp(self.beta ** 2 / 2)
-        return self.mode
-
-    def sample(self, rng, n) -> np.ndarray:
-        if self.distribution == "triangular":
-            return rng.triangular(self.low, self.mode, self.high, n)
-        if self.distribution == "lognormal":
-            return self.median * np.exp(self.beta * rng.standard_normal(n))
-        return np.full(n, float(self.mode))
-
-    def from_unit(self, u) -> np.ndarray:
-        """Quantile of the multiplier at u in (0, 1) (for sensitivity sampling)."""
-        from scipy import stats
-
-        u = np.asarray(u, float)
-        if self.distribution == "triangular":
-            c = (self.mode - self.low) / (self.high - self.low)
-            return stats.triang.ppf(u, c, loc=self.low, scale=self.high - self.low)
-        if self.distribution == "lognormal":
-            return self.median * np.exp(self.beta * stats.norm.ppf(u))
-        return np.full(u.shape, float(self.mode))
 
 
 @dataclass(frozen=True, eq=False)
@@ -102,8 +43,6 @@ class ConsequenceCurves:
     damage_no_breach: np.ndarray
     life_loss_breach: np.ndarray
     life_loss_no_breach: np.ndarray
-    damage_multiplier: Multiplier = Multiplier()
-    life_loss_multiplier: Multiplier = Multiplier()
     currency: str | None = None
     source: str | None = None
 
@@ -111,6 +50,12 @@ class ConsequenceCurves:
         """The four consequence fields at stages ``h`` (any shape), linear in stage, ends held."""
         h = np.asarray(h, float)
         return tuple(np.interp(h, self.stage, getattr(self, f)) for f in CONSEQUENCE_FIELDS)
+
+    def scaled(self, damage: float = 1.0, life_loss: float = 1.0) -> ConsequenceCurves:
+        """The curves with every damage value times ``damage`` and every life-loss value times ``life_loss``."""
+        return ConsequenceCurves(self.stage, self.damage_breach * damage, self.damage_no_breach * damage,
+                                 self.life_loss_breach * life_loss, self.life_loss_no_breach * life_loss,
+                                 currency=self.currency, source=self.source)
 
     @property
     def has_life_loss(self) -> bool:

@@ -23,7 +23,7 @@ from scipy import special as sc
 from ..errors import InputError
 from ..io import read_table, split_unit
 
-__all__ = ["FragilityCurve", "FailureMode", "combine_independent", "unimodal_bounds", "read_fragility_table",
+__all__ = ["FragilityCurve", "FailureMode", "combine_independent", "read_fragility_table",
            "FRAGILITY_KINDS"]
 
 FRAGILITY_KINDS = ("normal", "lognormal", "table")
@@ -103,20 +103,25 @@ class FailureMode:
     ----------
     name : str
     nodes : tuple of FragilityCurve
-    shift_sd : float
-        Knowledge uncertainty: standard deviation [stage units] of a normal shift of the whole
-        mode along the stage axis, sampled once per Monte Carlo draw.
-    spread_range : tuple (low, high) or None
-        Knowledge uncertainty: each normal/lognormal node's spread is multiplied by a factor
-        drawn uniformly from this range (1 is nominal).
+
+    Notes
+    -----
+    Knowledge uncertainty of a failure mode (a shift along stage, a factor on the spreads) is
+    declared in the chain's registry of uncertain inputs (:mod:`riskcalc.response.uncertain`) and
+    arrives here as the ``shift`` and ``spread_factor`` arguments of :meth:`prob`.
     """
 
     name: str
     nodes: tuple = field(default_factory=tuple)
-    shift_sd: float = 0.0
-    spread_range: tuple | None = None
+
+    @property
+    def has_spread(self) -> bool:
+        """True when some node has a spread a factor can act on (a normal or lognormal node)."""
+        return any(n.kind != "table" for n in self.nodes)
 
     def prob(self, h, shift=0.0, spread_factor=1.0) -> np.ndarray:
+        """P(mode | stage h): the product of the node curves, shifted by ``shift`` [stage units] with the
+        normal/lognormal spreads times ``spread_factor``; all broadcast against ``h``."""
         out = np.ones(np.broadcast_shapes(np.shape(h), np.shape(shift), np.shape(spread_factor)))
         for node in self.nodes:
             sp = None if node.kind == "table" else node.spread * np.asarray(spread_factor)
@@ -136,16 +141,6 @@ def combine_independent(p_modes) -> np.ndarray:
     p = np.asarray(p_modes, float)
     with np.errstate(divide="ignore"):
         return -np.expm1(np.log1p(-np.clip(p, 0, 1)).sum(axis=0))
-
-
-def unimodal_bounds(p_modes):
-    """Unimodal bounds on a series system (Ang & Tang 1984): max_i P_i <= P <= 1 − Π(1 − P_i).
-
-    The lower bound is the perfectly dependent case, the upper the independent one (which is
-    also the system value riskcalc reports).
-    """
-    p = np.asarray(p_modes, float)
-    return p.max(axis=0), combine_independent(p)
 
 
 def read_fragility_table(path, *, stage_unit=None, name="fragility", what="fragility table") -> FragilityCurve:

@@ -10,7 +10,9 @@ grid; at x_J for the tail cell), the annualized risk is
     R_r = Σ_j g_j m[r, j]
 
 (AFP: g = P_f; EAD: g = P_f D_breach + (1 − P_f) D_no_breach; ALL likewise
-with life loss). Because R_r is linear in the masses, the weighted mean of the
+with life loss). Both rules are written as one sum over evaluation points,
+``R_r = Σ_p w[r, p] g(x_p)`` (:func:`evaluation_points`, :func:`point_masses`),
+so every caller evaluates the chain once per point. Because R_r is linear in the masses, the weighted mean of the
 R_r equals the risk on the predictive masses m̄_j = Σ_r w_r m[r, j]: the
 predictive (mean) hazard is the integrating measure.
 
@@ -23,7 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["cell_masses", "cell_points", "risk_integrals", "fn_curve", "fn_levels", "chance_in_years",
+__all__ = ["cell_masses", "evaluation_points", "point_masses", "point_aep", "fn_levels", "chance_in_years",
            "aep_band_contributions"]
 
 
@@ -40,26 +42,51 @@ def cell_masses(p) -> np.ndarray:
     return m
 
 
-def cell_points(grid, log_spacing=True, rule="midpoint"):
-    """Where each cell's integrand is evaluated.
+def evaluation_points(grid, log_spacing=True, rule="midpoint") -> np.ndarray:
+    """Where the integrands are evaluated: (Q,) points for the Q cells' masses (:func:`point_masses`).
 
-    Returns
-    -------
-    points : ndarray (Q,) for ``midpoint`` (cell centres, then x_J for the tail cell), or
-    (lower, upper) : two ndarrays (Q,) for ``trapezoid`` (cell ends; the tail cell uses x_J twice).
+    ``midpoint``: the cell centres (geometric on a log grid), then x_J for the tail cell above the grid.
+    ``trapezoid``: the grid nodes x_0..x_J; each cell's mass is split between its two ends.
     """
     g = np.asarray(grid, float)
     if rule == "midpoint":
         mid = np.sqrt(g[:-1] * g[1:]) if log_spacing else 0.5 * (g[:-1] + g[1:])
         return np.concatenate([mid, g[-1:]])
     if rule == "trapezoid":
-        return np.concatenate([g[:-1], g[-1:]]), np.concatenate([g[1:], g[-1:]])
+        return g.copy()
     raise ValueError(f"integration rule '{rule}' is not midpoint or trapezoid")
 
 
-def risk_integrals(masses, integrands) -> np.ndarray:
-    """R = masses @ integrands: (R, Q) x (Q, K) -> (R, K), or (Q,) x (Q, K) -> (K,)."""
-    return np.asarray(masses, float) @ np.asarray(integrands, float)
+def point_masses(m, rule="midpoint") -> np.ndarray:
+    """Masses on the evaluation points from cell masses: (..., Q) -> (..., Q).
+
+    For ``midpoint`` the masses are the cell masses unchanged. For ``trapezoid`` cell j < J gives half
+    its mass to each of its ends x_j and x_{j+1}, and the tail cell J its whole mass to x_J, so that
+    ``sum_i w_i g(x_i)`` equals ``sum_j m_j (g(lo_j) + g(hi_j)) / 2`` (the trapezoid rule on the
+    probability axis, rearranged; the tail cell evaluated at x_J).
+    """
+    m = np.asarray(m, float)
+    if rule == "midpoint":
+        return m
+    if rule != "trapezoid":
+        raise ValueError(f"integration rule '{rule}' is not midpoint or trapezoid")
+    w = np.zeros_like(m)
+    w[..., :-1] += 0.5 * m[..., :-1]  # lower end of cell j < J
+    w[..., 1:] += 0.5 * m[..., :-1]  # upper end of cell j < J
+    w[..., -1] += m[..., -1]  # the tail cell, evaluated at x_J
+    return w
+
+
+def point_aep(aep_nodes, rule="midpoint") -> np.ndarray:
+    """A representative AEP of each evaluation point from the AEPs at the grid nodes: (Q,) -> (Q,).
+
+    ``midpoint``: the geometric mean of the cell's end AEPs (the tail cell: the AEP at x_J);
+    ``trapezoid``: the AEP at the node.
+    """
+    p = np.asarray(aep_nodes, float)
+    if rule == "trapezoid":
+        return p.copy()
+    return np.concatenate([np.sqrt(np.maximum(p[:-1] * p[1:], 0)), p[-1:]])
 
 
 def fn_levels(max_n, per_decade=12):
@@ -68,26 +95,6 @@ def fn_levels(max_n, per_decade=12):
         return np.array([1.0])
     top = np.ceil(np.log10(max_n) * per_decade) / per_decade
     return np.unique(np.concatenate([10 ** np.arange(0, top + 1e-9, 1 / per_decade), [max_n]]))
-
-
-def fn_curve(masses, pf, life_loss, levels) -> np.ndarray:
-    """Annual probability of N or more fatalities, F(N) = Σ_j P_f,j m_j 1[L_j >= N].
-
-    Parameters
-    ----------
-    masses : ndarray (Q,) or (R, Q)
-    pf : ndarray (Q,)
-        System failure probability of each cell.
-    life_loss : ndarray (Q,)
-        Life loss given failure of each cell.
-    levels : ndarray (K,)
-
-    Returns
-    -------
-    ndarray (K,) or (R, K)
-    """
-    ind = (np.asarray(life_loss)[:, None] >= np.asarray(levels)[None, :]).astype(float)
-    return np.asarray(masses, float) @ (np.asarray(pf)[:, None] * ind)
 
 
 def chance_in_years(aep, years):

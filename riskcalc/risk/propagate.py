@@ -4,9 +4,11 @@ Each realization r contributes ``k = draws_per_realization`` draws of weight
 w_r / k. Without knowledge uncertainty in the response, one draw per
 realization is exact and the risks are one matrix product per chunk,
 masses (c, Q) @ integrands (Q, K). With knowledge uncertainty each draw has its
-own response parameters, sampled from a per-chunk random stream
-(``numpy.random.SeedSequence(seed).spawn``), so results do not depend on the
-number of worker threads.
+own response parameters, sampled from the chain's registry of uncertain inputs
+(:meth:`~riskcalc.response.uncertain.UncertainInputs.sample`) with a per-chunk
+random stream (``numpy.random.SeedSequence(seed).spawn``), so results do not
+depend on the number of worker threads, and evaluated by the one response
+chain (:meth:`~riskcalc.response.chain.ChainOnPoints.risk`).
 
 Memory stays bounded: no array larger than a chunk of the (R, Q) masses is
 held, whatever R is.
@@ -19,10 +21,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..hazard.curves import CHUNK_BYTES
-from .integrate import cell_masses, cell_points
 from ..parallel import default_workers, map_in_threads
+from .integrate import cell_masses, evaluation_points, point_masses
 
-__all__ = ["Propagation", "propagate", "cell_integrands", "cell_fn_matrix", "chunk_rows_for", "default_workers"]
+__all__ = ["Propagation", "propagate", "chunk_rows_for", "default_workers"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -37,12 +39,16 @@ class Propagation:
         Risk of every draw.
     weights : ndarray (D,)
     realization : ndarray (D,) of int
-        The hazard realization of each draw.
+        The hazard realization of each draw (0-based index into the ensemble).
     aep_predictive : ndarray (Q,)
         p̄ at the grid nodes.
     masses_predictive : ndarray (Q,)
+        Predictive cell masses (the last the tail above the grid).
+    points : ndarray (Q,)
+        Evaluation points of the integrands (:func:`~riskcalc.risk.integrate.evaluation_points`).
+    rule : {"midpoint", "trapezoid"}
     integrands : ndarray (Q, K)
-        Nominal cell integrands.
+        Nominal integrands at the evaluation points.
     fn_levels : ndarray (L,)
     fn_per_realization : ndarray (R, L) or None
         F-N of every realization (nominal response), when it fits in memory.
@@ -50,6 +56,7 @@ class Propagation:
         Risk of every realization with the nominal response (equals ``values`` without knowledge
         uncertainty); the linearity identity holds for these.
     n_chunks : int
+    draws_per_realization : int
     """
 
     names: tuple
@@ -58,6 +65,8 @@ class Propagation:
     realization: np.ndarray
     aep_predictive: np.ndarray
     masses_predictive: np.ndarray
+    points: np.ndarray
+    rule: str
     integrands: np.ndarray
     fn_levels: np.ndarray
     fn_per_realization: np.ndarray | None
@@ -68,32 +77,32 @@ class Propagation:
     def column(self, name):
         return self.values[:, self.names.index(name)]
 
+    @property
+    def point_masses_predictive(self) -> np.ndarray:
+        """Predictive masses on the evaluation points (:func:`~riskcalc.risk.integrate.point_masses`)."""
+        return point_masses(self.masses_predictive, self.rule)
 
-def chunk_rows_for(model, n_grid, chunk_bytes=CHUNK_BYTES) -> int:
+    def on_measure(self, cell_masses_) -> np.ndarray:
+        """Risks (K,) with the nominal response on any measure given as cell masses (Q,) (mode, median curve)."""
+        return point_masses(cell_masses_, self.rule) @ self.integrands
+
+
+def chunk_rows_for(chain, n_grid, chunk_bytes=CHUNK_BYTES) -> int:
     """Realizations per chunk that keep one chunk's work arrays within ``chunk_bytes``."""
-    k = len(model.output_names())
-    nodes = model.hermite_nodes if (model.natural is not None and model.natural.active) else 1
-    per_row = n_grid * (1 + (k * nodes * 2 if model.has_knowledge_uncertainty else 0))
+    k = len(chain.output_names())
+    nodes = chain.hermite_nodes if chain.natural_active else 1
+    per_row = n_grid * (1 + (k * nodes * 2 if chain.has_knowledge_uncertainty else 0))
     return max(1, int(chunk_bytes // (8 * per_row)))
 
 
-def cell_integrands(model, grid, rule="midpoint", log_spacing=True, draws=None):
-    """Integrands per cell: (Q, K) nominal, or (D, Q, K) for ``draws``."""
-    pts = cell_points(grid, log_spacing, rule)
-    if rule == "midpoint":
-        return model.integrands(pts, draws)
-    lo, hi = pts
-    return 0.5 * (model.integrands(lo, draws) + model.integrands(hi, draws))
-
-
-def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="midpoint", log_spacing=True,
+def propagate(ens, chain, grid, *, seed=None, draws_per_realization=1, rule="midpoint", log_spacing=True,
               workers=None, chunk_bytes=CHUNK_BYTES, chunk_rows=None, fn_levels=None, progress=None) -> Propagation:
     """Run every realization (and its response draws) through the chain.
 
     Parameters
     ----------
     ens : HazardEnsemble
-    model : RiskModel
+    chain : ResponseChain
     grid : ndarray (Q,)
     seed : None, int or numpy.random.SeedSequence
         Seeds the response draws (unused without knowledge uncertainty).
@@ -116,23 +125,26 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
     k = int(draws_per_realization)
     if k < 1:
         raise ValueError("draws_per_realization must be at least 1")
-    names = model.output_names()
+    names = chain.output_names()
     K = len(names)
-    G = cell_integrands(model, grid, rule, log_spacing)
-    knowledge = model.has_knowledge_uncertainty
-    step = int(chunk_rows) if chunk_rows else chunk_rows_for(model, Q, chunk_bytes)
+    pts = evaluation_points(grid, log_spacing, rule)
+    on = chain.on(pts)
+    G = on.nominal_integrands(names)
+    knowledge = chain.has_knowledge_uncertainty
+    step = int(chunk_rows) if chunk_rows else chunk_rows_for(chain, Q, chunk_bytes)
     R = ens.size
     chunks = [slice(a, min(R, a + step)) for a in range(0, R, step)]
     ss = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
     streams = ss.spawn(len(chunks))
     levels = np.asarray(fn_levels, float) if fn_levels is not None else None
     keep_fn = levels is not None and R * levels.size <= 2e7
-    fn_matrix = cell_fn_matrix(model, grid, levels, rule, log_spacing) if keep_fn else None
+    fn_matrix = on.fn_integrand(levels)[0] if keep_fn else None
 
     def work(i):
         rows = chunks[i]
-        m = cell_masses(ens.aep(grid, rows))
-        mbar = ens.weights[rows] @ m
+        mc = cell_masses(ens.aep(grid, rows))
+        mbar = ens.weights[rows] @ mc
+        m = point_masses(mc, rule)
         fn = m @ fn_matrix if keep_fn else None
         nominal = m @ G  # (c, K): per-realization risks with the nominal response
         if not knowledge:
@@ -142,9 +154,7 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
             c = m.shape[0]
             vals = np.empty((c, k, K))
             for rep in range(k):
-                draws = model.sample(rng, c)
-                Gd = cell_integrands(model, grid, rule, log_spacing, draws)  # (c, Q, K)
-                vals[:, rep, :] = np.einsum("cq,cqk->ck", m, Gd)
+                vals[:, rep, :] = on.risk(m, chain.uncertain.sample(rng, c), names)
         return mbar, vals, fn, nominal
 
     results = map_in_threads(work, range(len(chunks)), workers, progress)
@@ -160,14 +170,6 @@ def propagate(ens, model, grid, *, seed=None, draws_per_realization=1, rule="mid
     realization = np.repeat(np.arange(R), kk)
     pbar = np.cumsum(mbar[::-1])[::-1]  # p̄(x_j) = Σ_{i>=j} m̄_i
     return Propagation(names=names, values=values, weights=weights, realization=realization, aep_predictive=pbar,
-                       masses_predictive=mbar, integrands=G, fn_levels=levels if levels is not None else np.array([]),
-                       fn_per_realization=fn, n_chunks=len(chunks), draws_per_realization=kk,
-                       nominal_values=nominal)
-
-
-def cell_fn_matrix(model, grid, levels, rule="midpoint", log_spacing=True) -> np.ndarray:
-    """F-N integrand per cell (Q, L): nominal response, incremental life loss, natural variability folded in."""
-    pts = cell_points(grid, log_spacing, rule)
-    if rule == "midpoint":
-        return model.fn_integrand(pts, levels)
-    return 0.5 * (model.fn_integrand(pts[0], levels) + model.fn_integrand(pts[1], levels))
+                       masses_predictive=mbar, points=pts, rule=rule, integrands=G,
+                       fn_levels=levels if levels is not None else np.array([]), fn_per_realization=fn,
+                       n_chunks=len(chunks), draws_per_realization=kk, nominal_values=nominal)

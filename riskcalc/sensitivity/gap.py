@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from ..risk.integrate import cell_masses
-from .evaluator import OUTPUT_KEYS, RiskDriver, node_masses
+from ..risk.integrate import cell_masses, point_masses
+from .evaluator import OUTPUT_KEYS, RiskDriver
 from .factors import SOURCES, scenario_factors
 
 
@@ -58,10 +58,10 @@ def gap_by_source(result, driver: RiskDriver, factors=None, *, seed: int = 1, sa
     not add up to the total: sources interact (e.g. a wider hazard makes a
     fragility shift matter more).
     """
-    factors = scenario_factors(driver.model) if factors is None else tuple(factors)
+    factors = scenario_factors(driver.chain) if factors is None else tuple(factors)
     head = result.headline
     units = _units(result.scenario.units.get("currency", "usd"))
-    m_mode = node_masses(cell_masses(result.curves.aep_mode), driver.rule)[None, :]
+    m_mode = point_masses(cell_masses(result.curves.aep_mode), driver.rule)[None, :]
     rows = []
     mode_vals = {k: head[k]["mode"] for k in OUTPUT_KEYS}
     pred = {"hazard": {k: head[k]["predictive_nominal_response"] for k in OUTPUT_KEYS}}
@@ -70,7 +70,7 @@ def gap_by_source(result, driver: RiskDriver, factors=None, *, seed: int = 1, sa
         if not fs:
             continue
         X = _qmc_unit(len(fs), samples, seed + i)
-        _, d = driver.draws_from_unit(fs, X)
+        _, d = driver.params_from_unit(fs, X)
         vals = driver.evaluate(None, d, masses=m_mode)
         pred[src] = {k: float(np.mean(v)) for k, v in vals.items()}
     pred["all"] = {k: head[k]["predictive"] for k in OUTPUT_KEYS}

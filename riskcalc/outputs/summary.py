@@ -1,0 +1,44 @@
+"""The summary.json structure of a run, read from its typed records (documented keys; add, don't rename)."""
+
+from __future__ import annotations
+
+from ..io import to_plain
+from ..risk.records import HEADLINES
+
+__all__ = ["CAUTION_TEXT", "summary_dict"]
+
+CAUTION_TEXT = ("Screening support for qualified, licensed engineers; it does not replace their judgment. "
+                "Tolerable-risk lines are defaults from published guidance: the governing agency's current "
+                "policy and local codes decide. Results are only as good as the inputs and the failure modes "
+                "considered.")
+
+
+def summary_dict(result) -> dict:
+    """Every headline figure and check of a :class:`~riskcalc.risk.records.RiskResult` as plain JSON values."""
+    r = result
+    out = {k: h.as_dict() for k, h in r.headline.items()}
+    out["mode_understatement"] = {k: r.headline[k].ratio_predictive_to_mode for k, _, _ in HEADLINES}
+    out["mode_understatement"]["crest_check"] = r.crest.as_dict()
+    out["incremental"] = {k: {"predictive": r.values_predictive[n], "mode": r.values_mode[n],
+                              "median_curve": r.values_median[n]}
+                          for k, n in (("expected_annual_damage", "ead_incremental"),
+                                       ("annualized_life_loss", "all_incremental"))}
+    chain = r.scenario.model
+    out["failure_modes"] = {}
+    for name in chain.failure_mode_names:
+        n = f"afp_fm:{name}"
+        out["failure_modes"][name] = {"predictive": r.values_predictive[n], "mode": r.values_mode[n]}
+    out["annual_failure_probability_bounds"] = {
+        "lower_fully_dependent": r.values_predictive["afp_lower_bound"],
+        "upper_independent": r.values_predictive["afp"]}
+    out["truncation"] = r.truncation.as_dict()
+    out["extrapolation"] = r.extrapolation.as_dict()
+    out["sensitivity"] = r.sensitivity
+    out["warnings"] = list(r.warnings)
+    out["notes"] = list(r.notes)
+    out["provenance"] = r.provenance
+    out["title"] = r.scenario.title
+    out["description"] = r.scenario.description
+    out["units"] = r.scenario.units
+    out["caution"] = CAUTION_TEXT
+    return to_plain(out)
