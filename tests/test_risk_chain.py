@@ -155,7 +155,10 @@ def test_crest_at_mode_design_stage_is_exceeded_more_often_student_t(scenario_fa
     assert crest.quantity == pytest.approx(x, rel=1e-9)
     assert abs(crest["aep_on_predictive"] - exact) < 4 * se
     assert crest["aep_on_predictive"] > 0.01
-    assert crest["chance_in_years_predictive"] == pytest.approx(1 - (1 - crest["aep_on_predictive"]) ** 50, rel=1e-12)
+    assert crest["chance_in_years_predictive_independent_years"] == pytest.approx(
+        1 - (1 - crest["aep_on_predictive"]) ** 50, rel=1e-12)
+    # Jensen: 1 - (1 - p)^n is concave in p, so the mean over curves is below the chance at the mean AEP
+    assert crest["chance_in_years_predictive"] < crest["chance_in_years_predictive_independent_years"]
     # the median curve's design flood is exceeded more often than 1 % too (common practice)
     assert res.crest["median_curve"]["aep_on_predictive"] > 0.01
 
@@ -258,3 +261,29 @@ def test_design_aep_outside_grid_is_refused(scenario_factory):
     path = scenario_factory(folder="dz", toml_extra="[checks]\ndesign_aep = 1e-9\n")
     with pytest.raises(InputError, match=r"key 'checks.design_aep': 1e-09 is outside the grid's AEP range"):
         load_scenario(path)
+
+
+def test_n_year_chance_against_simulated_sequences_per_realization():
+    # direct Monte Carlo (independent of riskcalc's formula): pick a realization with its weight, then draw n
+    # years of annual peaks from that one curve and record whether any exceeds x. The share of such sequences
+    # estimates the chance; tolerance 4 binomial standard errors.
+    from riskcalc.hazard import HazardEnsemble
+    from riskcalc.risk.assess import n_year_chance
+    from scipy import stats as st
+
+    rng = np.random.default_rng(2024)
+    R, n, x = 400, 50, 10 ** 3.2
+    mean, sd = rng.normal(2.7, 0.12, R), rng.uniform(0.2, 0.35, R)
+    w = rng.uniform(0.5, 1.5, R)
+    w /= w.sum()
+    ens = HazardEnsemble(family="lp3", weights=w, params={"mean": mean, "sd": sd, "skew": np.zeros(R)})
+    p_r = ens.aep(np.array([x]))[:, 0]
+    np.testing.assert_allclose(p_r, st.norm.sf((np.log10(x) - mean) / sd), rtol=1e-9)  # zero skew = lognormal
+    got = n_year_chance(ens.weights, p_r, n)
+    S = 200_000
+    r = rng.choice(R, size=S, p=w)
+    peaks = rng.normal(mean[r][:, None], sd[r][:, None], (S, n))  # log10 annual peaks, one curve per sequence
+    sim = np.mean(np.any(peaks > np.log10(x), axis=1))
+    assert got == pytest.approx(sim, abs=4 * np.sqrt(sim * (1 - sim) / S))
+    # and the independent-years figure under the mean AEP is measurably larger here
+    assert 1 - (1 - w @ p_r) ** n - got > 10 * np.sqrt(sim * (1 - sim) / S)

@@ -5,7 +5,9 @@ Two input forms are read:
 Parameter sets
     One row a realization, the family's parameter columns (see
     :data:`riskcalc.hazard.families.FAMILIES`), optional ``weight``, optional
-    ``log_posterior`` and optional ``realization`` (a label).
+    ``log_posterior``, optional ``realization`` (a label), and optional ``chain``
+    and ``iteration`` (whole numbers; both or neither) when the rows are an MCMC
+    sample in a known order, so that its autocorrelation can be estimated.
 Curve table (long form)
     One row a point of one realization's curve: ``realization``, ``aep``, and
     the quantity (``discharge`` or ``stage``, optionally with a unit suffix
@@ -71,6 +73,9 @@ class HazardEnsemble:
     log_posterior : ndarray (R,) or None
     labels : tuple of str
         Realization labels.
+    chain, iteration : ndarray (R,) of int or None
+        The MCMC chain and iteration of each realization, when the ensemble is a Markov chain
+        sample in a known order (used to estimate its autocorrelation); None otherwise.
     quantity : {"discharge", "stage"}
     unit : str or None
         Unit code of the quantity (``m3s``, ``cfs``, ``m``, ``ft``).
@@ -85,6 +90,8 @@ class HazardEnsemble:
     table_values: np.ndarray | None = None
     log_posterior: np.ndarray | None = None
     labels: tuple = ()
+    chain: np.ndarray | None = None
+    iteration: np.ndarray | None = None
     quantity: str = "discharge"
     unit: str | None = None
     source: str | None = None
@@ -112,6 +119,8 @@ class HazardEnsemble:
             table_values=None if self.table_values is None else self.table_values[idx],
             log_posterior=None if self.log_posterior is None else self.log_posterior[idx],
             labels=tuple(self.labels[i] for i in idx) if self.labels else (),
+            chain=None if self.chain is None else self.chain[idx],
+            iteration=None if self.iteration is None else self.iteration[idx],
             quantity=self.quantity, unit=self.unit, source=self.source)
 
     def aep(self, x, rows=slice(None)) -> np.ndarray:
@@ -201,8 +210,20 @@ def read_parameter_ensemble(path, family: str, *, quantity="discharge", unit=Non
     except ValueError as exc:
         raise InputError(str(exc), path) from None
     table = read_table(path, what=f"{fam.name} ensemble", sheet=sheet)
-    optional = ("weight", "log_posterior", "realization")
+    optional = ("weight", "log_posterior", "realization", "chain", "iteration")
     table.require(fam.parameters, optional, what=f"{fam.name} ensemble")
+    order = {}
+    if table.has("chain") != table.has("iteration"):
+        missing = "iteration" if table.has("chain") else "chain"
+        raise InputError(f"missing column '{missing}': an MCMC order needs both chain and iteration", path,
+                         row=table.header_row)
+    for name in ("chain", "iteration"):
+        if table.has(name):
+            v = table.numbers(name, nonnegative=True, what="a whole number >= 0")
+            bad = np.flatnonzero(v != np.round(v))
+            if bad.size:
+                raise InputError(f"{v[bad[0]]:g} is not a whole number", path, row=table.rows[bad[0]], column=name)
+            order[name] = v.astype(np.int64)
     params = {}
     for name in fam.parameters:
         params[name] = table.numbers(name, positive=name in fam.positive,
@@ -216,7 +237,7 @@ def read_parameter_ensemble(path, family: str, *, quantity="discharge", unit=Non
     labels = tuple(table.text("realization")) if table.has("realization") else tuple(
         str(i + 1) for i in range(len(table)))
     return HazardEnsemble(family=fam.name, weights=w, params=params, log_posterior=lp,
-                          labels=labels, quantity=quantity, unit=unit, source=str(path))
+                          labels=labels, quantity=quantity, unit=unit, source=str(path), **order)
 
 
 def read_curve_table(path, *, sheet=None, unit=None) -> HazardEnsemble:

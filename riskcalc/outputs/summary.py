@@ -27,10 +27,20 @@ def summary_dict(result) -> dict:
     out["failure_modes"] = {}
     for name in chain.failure_mode_names:
         n = f"afp_fm:{name}"
-        out["failure_modes"][name] = {"predictive": r.values_predictive[n], "mode": r.values_mode[n]}
+        a = f"afp_fm_adjusted:{name}"
+        out["failure_modes"][name] = {"predictive": r.values_predictive[n], "mode": r.values_mode[n],
+                                      "predictive_common_cause_adjusted": r.values_predictive[a],
+                                      "mode_common_cause_adjusted": r.values_mode[a]}
     out["annual_failure_probability_bounds"] = {
         "lower_fully_dependent": r.values_predictive["afp_lower_bound"],
-        "upper_independent": r.values_predictive["afp"]}
+        "upper_independent": r.values_predictive["afp"],
+        "independent": r.values_predictive["afp"],
+        "upper_series": r.values_predictive["afp_upper_bound"],
+        "assumption": "the system value 1 - prod(1 - P_i) assumes failure modes independent given the stage; "
+                      "any dependence gives a value between max P_i and min(1, sum P_i)",
+        "common_cause_adjustment": "proportional: P_f P_i / sum_j P_j, so the adjusted failure-mode values add "
+                                   "up to the system value"}
+    out["ensemble_size"] = r.ensemble_size.as_dict()
     out["truncation"] = r.truncation.as_dict()
     out["extrapolation"] = r.extrapolation.as_dict()
     out["sensitivity"] = r.sensitivity

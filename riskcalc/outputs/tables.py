@@ -65,11 +65,14 @@ def per_draw_table(result) -> pd.DataFrame:
     cols = {"realization": labels[prop.realization],
             "draw": np.tile(np.arange(1, prop.draws_per_realization + 1), ens.size),
             "weight": prop.weights}
-    rename = {"afp": "afp_per_yr", "afp_lower_bound": "afp_lower_bound_per_yr", "ead": f"ead_{cur}_per_yr",
+    rename = {"afp": "afp_per_yr", "afp_lower_bound": "afp_lower_bound_per_yr",
+              "afp_upper_bound": "afp_upper_bound_per_yr", "ead": f"ead_{cur}_per_yr",
               "ead_incremental": f"ead_incremental_{cur}_per_yr", "all": "all_lives_per_yr",
               "all_incremental": "all_incremental_lives_per_yr"}
     for i, n in enumerate(prop.names):
-        key = rename.get(n, "afp_per_yr_" + n.split(":", 1)[1].replace(" ", "_") if n.startswith("afp_fm:") else n)
+        fm = n.split(":", 1)[-1].replace(" ", "_")
+        key = rename.get(n, f"afp_per_yr_{fm}" if n.startswith("afp_fm:") else
+                         f"afp_adjusted_per_yr_{fm}" if n.startswith("afp_fm_adjusted:") else n)
         cols[key] = prop.values[:, i]
     return pd.DataFrame(cols)
 
@@ -104,6 +107,7 @@ def response_table(result, n=400) -> pd.DataFrame:
         out[f"p_failure_{name.replace(' ', '_')}"] = v[failure_mode_output(name)]
     out["p_failure_system"] = v["afp"]
     out["p_failure_lower_bound"] = v["afp_lower_bound"]
+    out["p_failure_upper_bound"] = v["afp_upper_bound"]
     out[f"damage_breach_{cur}"] = v["damage_breach"]
     out[f"damage_no_breach_{cur}"] = v["damage_no_breach"]
     out["life_loss_breach"] = v["life_loss_breach"]

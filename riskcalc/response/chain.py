@@ -10,11 +10,21 @@ and the integrands of the risk integrals are (:data:`OUTPUTS`)
 
     afp               P_f
     afp_lower_bound   max_i P_i                      (fully dependent failure modes)
+    afp_upper_bound   min(1, Σ_i P_i)                (mutually exclusive failure modes)
     ead               P_f D_b + (1 − P_f) D_nb
     ead_incremental   P_f (D_b − D_nb)
     all               P_f L_b + (1 − P_f) L_nb
     all_incremental   P_f (L_b − L_nb)
     afp_fm:<name>     P_i of each failure mode
+    afp_fm_adjusted:<name>   P_f P_i / Σ_j P_j       (proportional common-cause adjustment)
+
+The system value 1 − Π(1 − P_i) assumes the failure modes are independent given
+the stage; whatever their dependence, a series system lies between the bounds
+max_i P_i and min(1, Σ_i P_i) (Ang & Tang 1984). The adjusted failure-mode
+values share P_f among the modes in proportion to their probabilities, so that
+they add up to the system value (the proportional common-cause adjustment, as
+recalled from the USACE/USBR best-practice guidance on combining failure modes
+[from memory; check the primary document]).
 
 Natural variability of stage about the rating curve, ε ~ N(0, σ(x)), is folded
 in by Gauss-Hermite quadrature over the whole integrand, g*(x) = E_ε[g(h(x) + ε)]
@@ -51,15 +61,16 @@ from .uncertain import ResponseParameters, UncertainInputs
 __all__ = ["ResponseChain", "ChainOnPoints", "OUTPUTS", "HEADLINE_OUTPUTS", "failure_mode_output"]
 
 #: Integrand names of every chain, in column order (per-failure-mode AFPs follow).
-OUTPUTS = ("afp", "afp_lower_bound", "ead", "ead_incremental", "all", "all_incremental")
+OUTPUTS = ("afp", "afp_lower_bound", "ead", "ead_incremental", "all", "all_incremental", "afp_upper_bound")
 #: The three headline integrands.
 HEADLINE_OUTPUTS = ("afp", "ead", "all")
 _FM_PREFIX = "afp_fm:"
+_FM_ADJ_PREFIX = "afp_fm_adjusted:"
 
 
-def failure_mode_output(name: str) -> str:
-    """The integrand (and per-draw column) name of one failure mode's AFP."""
-    return _FM_PREFIX + name
+def failure_mode_output(name: str, adjusted: bool = False) -> str:
+    """The integrand (and per-draw column) name of one failure mode's AFP (or its common-cause adjusted AFP)."""
+    return (_FM_ADJ_PREFIX if adjusted else _FM_PREFIX) + name
 
 
 @dataclass(frozen=True, eq=False)
@@ -103,7 +114,8 @@ class ResponseChain:
         return tuple(m.name for m in self.failure_modes)
 
     def output_names(self) -> tuple:
-        return OUTPUTS + tuple(failure_mode_output(n) for n in self.failure_mode_names)
+        return (OUTPUTS + tuple(failure_mode_output(n) for n in self.failure_mode_names)
+                + tuple(failure_mode_output(n, True) for n in self.failure_mode_names))
 
     @property
     def has_knowledge_uncertainty(self) -> bool:
@@ -226,10 +238,14 @@ class ChainOnPoints:
         off_u, shift_u, spread_u = uj[:, 0], uj[:, 1:1 + nm].T, uj[:, 1 + nm:].T
         ext = (slice(None), None, None)
         want_fm = [i for i, n in enumerate(ch.failure_mode_names) if failure_mode_output(n) in outputs]
+        want_adj = [i for i, n in enumerate(ch.failure_mode_names) if failure_mode_output(n, True) in outputs]
         need_bound = "afp_lower_bound" in outputs
-        need_pf = any(k in outputs for k in ("afp", "ead", "ead_incremental", "all", "all_incremental"))
+        need_sum = "afp_upper_bound" in outputs or bool(want_adj)
+        need_pf = bool(want_adj) or any(k in outputs for k in ("afp", "ead", "ead_incremental", "all",
+                                                               "all_incremental"))
         out = {}
-        pf = bound = None
+        pf = bound = psum = None
+        kept = {}
         for i, mode in enumerate(modes):
             u, inv = _unique(off_u, shift_u[i], spread_u[i])
             p = mode.prob(h[None] + u[:, 0][ext], u[:, 1][ext], u[:, 2][ext])  # (u_i, P, n)
@@ -238,11 +254,16 @@ class ChainOnPoints:
             if need_bound:
                 pb = _take(p, inv)
                 bound = pb if bound is None else np.maximum(bound, pb)
+            if need_sum:
+                pi = _take(p, inv)
+                psum = pi.copy() if psum is None else psum + pi
+                if i in want_adj:
+                    kept[i] = pi
             if not need_pf:
                 continue
             if nm == 1:
                 pf = _take(p, inv)
-                break
+                continue
             q = np.clip(p, 0.0, 1.0)
             np.negative(q, out=q)
             with np.errstate(divide="ignore"):  # P_i = 1 gives log 0 = -inf, hence P_f = 1 exactly
@@ -253,6 +274,13 @@ class ChainOnPoints:
             pf = -np.expm1(pf)
         if need_bound:
             out["afp_lower_bound"] = self._nodes(bound)
+        if "afp_upper_bound" in outputs:
+            out["afp_upper_bound"] = self._nodes(np.minimum(psum, 1.0))
+        if want_adj:
+            with np.errstate(invalid="ignore", divide="ignore"):
+                share = np.where(psum > 0, pf / np.where(psum > 0, psum, 1.0), 0.0)
+            for i in want_adj:
+                out[failure_mode_output(modes[i].name, True)] = self._nodes(kept[i] * share)
         if "afp" in outputs:
             out["afp"] = self._nodes(pf)
         if any(k in outputs for k in ("ead", "ead_incremental", "all", "all_incremental")):

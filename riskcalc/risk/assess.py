@@ -24,7 +24,8 @@ from ..io import sha256
 from . import diagnostics as dg
 from .integrate import aep_band_contributions, cell_masses, chance_in_years, evaluation_points, fn_levels, point_aep
 from .propagate import Propagation, default_workers, propagate
-from .records import (HEADLINES, CrestCheck, DesignFloodCheck, Extrapolation, FNCurve, Headline, RiskResult,
+from .standard_errors import clustered_standard_error, ensemble_autocorrelation
+from .records import (HEADLINES, EnsembleSize, CrestCheck, DesignFloodCheck, Extrapolation, FNCurve, Headline, RiskResult,
                       Truncation, weighted_summary)
 
 __all__ = ["assess", "build_grid", "run_date", "headline_figures", "fn_curves", "crest_check", "tail_checks"]
@@ -79,10 +80,15 @@ def _ratio(a, b):
 
 
 def headline_figures(prop: Propagation, v_pred: dict, v_mode: dict, v_med: dict, v_nominal: dict) -> dict:
-    """The three headline figures on every measure, with their ensemble statistics and standard errors."""
+    """The three headline figures on every measure, with their ensemble statistics and standard errors.
+
+    The Monte Carlo standard error treats the draws of one realization as a cluster
+    (:func:`~riskcalc.risk.standard_errors.clustered_standard_error`): they share its curve.
+    """
     out = {}
     for key, n, _ in HEADLINES:
-        stats, se = weighted_summary(prop.column(n), prop.weights)
+        stats, _ = weighted_summary(prop.column(n), prop.weights)
+        se = clustered_standard_error(prop.column(n), prop.weights, prop.realization)
         pv, mv, pn = v_pred[n], v_mode[n], v_nominal[n]
         out[key] = Headline(predictive=pv, mode=mv, median_curve=v_med[n], ensemble=stats, mc_standard_error=se,
                             ratio_predictive_to_mode=_ratio(pv, mv), predictive_nominal_response=pn,
@@ -104,21 +110,46 @@ def fn_curves(on, prop: Propagation, levels, m_mode, m_med, weights) -> FNCurve:
     return FNCurve(**fn)
 
 
+def n_year_chance(weights, aep_members, years: int) -> float:
+    """Chance of at least one exceedance in ``years`` years on the predictive hazard.
+
+    All years share one unknown curve, so the chance is Σ_r w_r [1 − (1 − p_r)^n], the ensemble mean of
+    each curve's chance; 1 − (1 − p̄)^n (independent years under the mean AEP) overstates it by
+    Jensen's inequality, since 1 − (1 − p)^n is concave in p.
+    """
+    return float(np.asarray(weights, float) @ chance_in_years(np.asarray(aep_members, float), years))
+
+
+def ensemble_size(ens, prop: Propagation) -> EnsembleSize:
+    """Effective size of the ensemble: from its weights, and from its autocorrelation when it is an ordered
+    MCMC sample (per headline figure, on the realizations' nominal-response values)."""
+    ess = 1.0 / float(np.sum(ens.weights ** 2))
+    if ens.chain is None:
+        return EnsembleSize(effective_size_from_weights=ess, assumes_independent_members=True,
+                            autocorrelation_time=None, effective_size_mcmc=None)
+    tau = {key: ensemble_autocorrelation(prop.nominal_values[:, prop.names.index(n)], ens.chain, ens.iteration)
+           for key, n, _ in HEADLINES}
+    return EnsembleSize(effective_size_from_weights=ess, assumes_independent_members=False,
+                        autocorrelation_time=tau, effective_size_mcmc={k: ess / v for k, v in tau.items()})
+
+
 def crest_check(ens, chain, curves, design_aep: float, years: int) -> CrestCheck:
     """The design flood of the mode and median curves at ``design_aep``, read on the predictive curve."""
     out = {}
     for label, curve in (("mode", curves.mode), ("median_curve", curves.median)):
         x = float(curve.quantile(np.array([design_aep]))[0, 0])
-        p = float(ens.weights @ ens.aep(np.array([x]))[:, 0])
+        members = ens.aep(np.array([x]))[:, 0]
+        p = float(ens.weights @ members)
         out[label] = DesignFloodCheck(
             quantity_name=ens.quantity, quantity=x, stage=float(chain.stage_at(np.array([x]))[0]),
             aep_on_predictive=p, return_period_on_predictive_yr=1 / p if p > 0 else None,
             chance_in_years_nominal=float(chance_in_years(design_aep, years)),
-            chance_in_years_predictive=float(chance_in_years(p, years)))
+            chance_in_years_predictive=n_year_chance(ens.weights, members, years),
+            chance_in_years_predictive_independent_years=float(chance_in_years(p, years)))
     return CrestCheck(design_aep=design_aep, years=years, **out)
 
 
-def tail_checks(prop: Propagation, chain, grid, quantity: str, totals: dict):
+def tail_checks(prop: Propagation, chain, grid, quantity: str, totals: dict, stage_unit: str = ""):
     """Truncation above and below the grid, and extrapolation beyond the rating table, with their warnings."""
     names, G = prop.names, prop.integrands
     m_pred = prop.masses_predictive
@@ -129,15 +160,26 @@ def tail_checks(prop: Propagation, chain, grid, quantity: str, totals: dict):
                        bottom_of_grid=float(grid[0]), share_of_afp_from_tail=tail["afp"] / afp if afp > 0 else 0.0,
                        tail_contribution={k: tail[n] for k, n, _ in HEADLINES})
     warns = dg.truncation_warnings(tail, totals, trunc.aep_above_grid)
-    extrap = Extrapolation(rating_table_top=None, aep_beyond_rating_table=0.0, share_of_afp_beyond_rating_table=0.0)
+    w = prop.point_masses_predictive
+    top, aep_beyond, share = None, 0.0, 0.0
     if chain.rating is not None:
         top = float(chain.rating.discharge[-1])
-        w = prop.point_masses_predictive
         beyond = prop.points > top
         share = float((w[beyond] * G[beyond, names.index("afp")]).sum() / afp) if afp > 0 else 0.0
-        extrap = Extrapolation(rating_table_top=top, aep_beyond_rating_table=float(m_pred[evaluation_points(
-            grid, True, "midpoint") > top].sum()), share_of_afp_beyond_rating_table=share)
-        warns += dg.extrapolation_warnings(extrap.aep_beyond_rating_table, share, top)
+        aep_beyond = float(m_pred[evaluation_points(grid, True, "midpoint") > top].sum())
+        warns += dg.extrapolation_warnings(aep_beyond, share, top)
+    # consequences are held constant above the consequence table's last stage
+    c_top = float(chain.consequences.stage[-1])
+    above = chain.stage_at(prop.points) > c_top
+    shares = {}
+    for key, n in (("expected_annual_damage", "ead"), ("annualized_life_loss", "all")):
+        tot = totals[n]
+        shares[key] = float((w[above] * G[above, names.index(n)]).sum() / tot) if tot > 0 else 0.0
+    warns += dg.consequence_table_warnings(shares, c_top, stage_unit)
+    extrap = Extrapolation(rating_table_top=top, aep_beyond_rating_table=aep_beyond,
+                           share_of_afp_beyond_rating_table=share, consequence_table_top_stage=c_top,
+                           share_of_ead_above_consequence_table=shares["expected_annual_damage"],
+                           share_of_all_above_consequence_table=shares["annualized_life_loss"])
     return trunc, extrap, warns
 
 
@@ -191,7 +233,9 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     on = chain.on(prop.points)
     fn = fn_curves(on, prop, levels, m_mode, m_med, ens.weights)
     crest = crest_check(ens, chain, curves, sc.checks["design_aep"], sc.checks["years"])
-    truncation, extrapolation, tail_warnings = tail_checks(prop, chain, grid, ens.quantity, v_nominal)
+    truncation, extrapolation, tail_warnings = tail_checks(prop, chain, grid, ens.quantity, v_nominal,
+                                                           sc.units.get("stage", ""))
+    size = ensemble_size(ens, prop)
     cell_aep = point_aep(prop.aep_predictive, rule)
     w_pred = prop.point_masses_predictive
     contributions = {}
@@ -202,12 +246,20 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     x_mode = float(curves.mode.quantile(np.array([sc.checks["design_aep"]]))[0, 0])
     lo_b, hi_b = (float(invert_on_paper(q, curves.aeps, [sc.checks["design_aep"]], curves.log_scale)[0])
                   for q in (curves.quantity_lower, curves.quantity_upper))
-    warnings = (dg.monte_carlo_warnings(headline, ens.size) + dg.ensemble_size_warnings(ens.weights) + tail_warnings
+    warnings = (dg.monte_carlo_warnings(headline, ens.size) + dg.ensemble_size_warnings(ens.weights)
+                + dg.autocorrelation_warnings(size) + tail_warnings
                 + dg.grid_bottom_warnings(prop.integrands, names, v_nominal, truncation.aep_below_grid)
                 + dg.always_failing_warnings(prop.integrands[:, names.index("afp")])
                 + dg.mode_outside_band_warnings(x_mode, lo_b, hi_b, sc.checks["design_aep"], ens.quantity,
                                                 sc.credible_level))
     notes = [curves.mode_note]
+    if size.assumes_independent_members:
+        notes.append("the Monte Carlo standard errors treat the ensemble's members as independent draws (the "
+                     "ensemble gives no MCMC chain/iteration order to estimate their autocorrelation); draws of "
+                     "one realization are treated as a cluster")
+    else:
+        notes.append("the ensemble is an ordered MCMC sample; integrated autocorrelation time " + ", ".join(
+            f"{dg.short(k)} {v:.2f}" for k, v in size.autocorrelation_time.items()) + " (Sokal 1997)")
     if chain.has_knowledge_uncertainty:
         notes.append(f"knowledge uncertainty in the response is sampled: {k} draw(s) per realization; the predictive "
                      "figures are the means over all draws, the mode and median curves use the nominal response")
@@ -220,5 +272,6 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
                  "breach), with natural variability of stage folded in")
     return RiskResult(scenario=sc, grid=grid, curves=curves, propagation=prop, cell_aep=cell_aep,
                       values_predictive=v_pred, values_mode=v_mode, values_median=v_med, headline=headline, fn=fn,
-                      crest=crest, truncation=truncation, extrapolation=extrapolation, contributions=contributions,
+                      crest=crest, truncation=truncation, extrapolation=extrapolation, ensemble_size=size,
+                      contributions=contributions,
                       warnings=warnings, notes=notes, provenance=_provenance(sc, grid, rule, k, ens, chain))

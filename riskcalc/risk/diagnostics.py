@@ -20,6 +20,8 @@ REL_SE_WARN = 0.05
 TRUNCATION_WARN = 0.01
 #: Share of AFP from beyond the rating table above which the run warns.
 EXTRAPOLATION_WARN = 0.01
+#: Share of EAD or ALL from above the consequence table above which the run warns.
+CONSEQUENCE_WARN = 0.01
 #: Effective ensemble size below which percentiles and the predictive tail are flagged.
 ESS_WARN = 200
 
@@ -77,6 +79,29 @@ def grid_bottom_warnings(G, names, totals: dict, aep_below: float) -> list:
                        f"as carrying no risk (up to {100 * aep_below * g0 / tot:.2g} % more); check the response "
                        "tables and the hazard variable, or raise grid.aep_max")
     return out
+
+
+def short(key) -> str:
+    return {"annual_failure_probability": "AFP", "expected_annual_damage": "EAD", "annualized_life_loss": "ALL"}[key]
+
+
+def consequence_table_warnings(shares: dict, top_stage: float, stage_unit: str) -> list:
+    out = []
+    for key, s in shares.items():
+        if s > CONSEQUENCE_WARN:
+            out.append(f"{100 * s:.1f} % of the {_words(key)} comes from stages above the consequence table's last "
+                       f"stage ({top_stage:g} {stage_unit}), where consequences are held constant; extend the table")
+    return out
+
+
+def autocorrelation_warnings(size) -> list:
+    if size.assumes_independent_members or not size.effective_size_mcmc:
+        return []
+    worst = min(size.effective_size_mcmc.values())
+    if worst < ESS_WARN * (1 - 1e-9):
+        return [f"the ensemble's MCMC sample is worth about {worst:.0f} independent realizations (autocorrelation); "
+                "the Monte Carlo standard errors, which treat members as independent, are too small"]
+    return []
 
 
 def always_failing_warnings(pf) -> list:

@@ -15,7 +15,7 @@ import numpy as np
 from ..io import to_plain
 
 __all__ = ["HEADLINES", "EnsembleStats", "Headline", "DesignFloodCheck", "CrestCheck", "Truncation",
-           "Extrapolation", "FNCurve", "RiskResult", "weighted_summary"]
+           "Extrapolation", "EnsembleSize", "FNCurve", "RiskResult", "weighted_summary"]
 
 #: Headline outputs: summary key, integrand name, unit kind.
 HEADLINES = (
@@ -123,7 +123,12 @@ class DesignFloodCheck(_Record):
         Its stage [stage units].
     aep_on_predictive : float
     return_period_on_predictive_yr : float or None
-    chance_in_years_nominal, chance_in_years_predictive : float
+    chance_in_years_nominal : float
+        1 − (1 − design AEP)^n: the chance the curve itself states.
+    chance_in_years_predictive : float
+        Σ_r w_r [1 − (1 − p_r)^n]: every year shares one unknown curve.
+    chance_in_years_predictive_independent_years : float
+        1 − (1 − p̄)^n: as if each year drew its own curve; overstates the chance (Jensen).
     """
 
     quantity_name: str
@@ -133,6 +138,7 @@ class DesignFloodCheck(_Record):
     return_period_on_predictive_yr: float | None
     chance_in_years_nominal: float
     chance_in_years_predictive: float
+    chance_in_years_predictive_independent_years: float
 
     def __getitem__(self, key):
         return self.quantity if key == self.quantity_name else super().__getitem__(key)
@@ -142,6 +148,29 @@ class DesignFloodCheck(_Record):
         d.pop("quantity_name")
         d = {self.quantity_name: d.pop("quantity"), **d}
         return d
+
+
+@dataclass(frozen=True)
+class EnsembleSize(_Record):
+    """How many independent realizations the ensemble is worth.
+
+    Attributes
+    ----------
+    effective_size_from_weights : float
+        1 / Σ w_r² (Kish's effective sample size of the weights).
+    assumes_independent_members : bool
+        True when the ensemble has no MCMC order: the standard errors then treat its members as
+        independent draws.
+    autocorrelation_time : dict or None
+        Integrated autocorrelation time per headline figure (MCMC ensembles).
+    effective_size_mcmc : dict or None
+        ``effective_size_from_weights / autocorrelation_time`` per headline figure.
+    """
+
+    effective_size_from_weights: float
+    assumes_independent_members: bool
+    autocorrelation_time: dict | None
+    effective_size_mcmc: dict | None
 
 
 @dataclass(frozen=True)
@@ -179,11 +208,15 @@ class Truncation(_Record):
 
 @dataclass(frozen=True)
 class Extrapolation(_Record):
-    """Probability mass and AFP share above the rating table (stage extrapolated)."""
+    """Risk carried where a table is extended: above the rating table (stage extrapolated) and above the
+    consequence table's last stage (consequences held constant)."""
 
     rating_table_top: float | None
     aep_beyond_rating_table: float
     share_of_afp_beyond_rating_table: float
+    consequence_table_top_stage: float
+    share_of_ead_above_consequence_table: float
+    share_of_all_above_consequence_table: float
 
 
 @dataclass(frozen=True, eq=False)
@@ -226,6 +259,7 @@ class RiskResult:
     crest : CrestCheck
     truncation : Truncation
     extrapolation : Extrapolation
+    ensemble_size : EnsembleSize
     contributions : dict
         ``{summary key: {"bands": [(hi, lo)], "values": ndarray}}``, risk by AEP band.
     warnings, notes : list of str
@@ -247,6 +281,7 @@ class RiskResult:
     crest: CrestCheck
     truncation: Truncation
     extrapolation: Extrapolation
+    ensemble_size: EnsembleSize
     contributions: dict
     warnings: list
     notes: list
