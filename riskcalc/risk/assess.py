@@ -20,6 +20,7 @@ from ..hazard.curves import hazard_curves, invert_on_paper, mode_curve, quantity
 from .integrate import aep_band_contributions, cell_masses, cell_points, chance_in_years, fn_levels
 from ..io import sha256
 from ..io import to_plain as _plain
+from ..outputs.labels import CAUTION as CAUTION_TEXT
 from .propagate import Propagation, cell_fn_matrix, default_workers, propagate
 
 __all__ = ["RiskResult", "assess", "HEADLINES", "weighted_summary"]
@@ -112,12 +113,6 @@ class RiskResult:
         out["units"] = self.scenario.units
         out["caution"] = CAUTION_TEXT
         return _plain(out)
-
-
-CAUTION_TEXT = ("Screening support for qualified, licensed engineers; it does not replace their judgment. "
-                "Tolerable-risk lines are defaults from published guidance: the governing agency's current "
-                "policy and local codes decide. Results are only as good as the inputs and the failure modes "
-                "considered.")
 
 
 def run_date() -> str:
