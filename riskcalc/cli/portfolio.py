@@ -6,10 +6,9 @@ from pathlib import Path
 
 import typer
 
-from . import CAUTION, app
+from ..outputs.labels import caution_line, currency_text, fmt_money, fmt_num, fmt_ratio
 
 
-@app.command()
 def portfolio(
     paths: list[Path] = typer.Argument(..., help="Scenario files, folders of them, or .txt lists of them."),
     out: Path = typer.Option(..., "--out", "-o", help="Output directory: portfolio.csv and one folder a scenario."),
@@ -36,11 +35,11 @@ def portfolio(
     if not quiet:
         for r in table.itertuples(index=False):
             if r.status == "ok":
-                typer.echo(f"{r.scenario:28} AFP {r.afp_predictive_per_yr:.3g} (mode {r.afp_mode_per_yr:.3g}, "
-                           f"x{r.afp_ratio:.2f})  EAD {r.ead_predictive_per_yr:,.0f} {r.currency}/yr  "
-                           f"ALL {r.all_predictive_lives_per_yr:.3g}/yr")
+                typer.echo(f"{r.scenario:28} AFP {fmt_num(r.afp_predictive_per_yr)} (mode {fmt_num(r.afp_mode_per_yr)}, "
+                           f"x{fmt_ratio(r.afp_ratio)})  EAD {fmt_money(r.ead_predictive_per_yr)} "
+                           f"{currency_text(r.currency)}/yr  ALL {fmt_num(r.all_predictive_lives_per_yr)} lives/yr")
             else:
                 typer.echo(f"{r.scenario:28} {r.status}: {r.error}")
-        typer.echo(CAUTION)
+        typer.echo(caution_line())
     failed = int((table["status"] != "ok").sum())
     typer.echo(f"portfolio: {len(table) - failed} of {len(table)} scenarios ran; table: {out}/portfolio.csv")
