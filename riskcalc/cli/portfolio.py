@@ -6,7 +6,7 @@ from pathlib import Path
 
 import typer
 
-from ..outputs.labels import caution_line, currency_text, fmt_money, fmt_num, fmt_ratio
+from ..outputs.labels import caution_line, fmt_ratio, output_label
 
 
 def portfolio(
@@ -33,11 +33,13 @@ def portfolio(
     with progress_bar("scenarios", enabled=not quiet) as update:
         table = run_portfolio(paths, out, workers=workers, scheduler=scheduler, overwrite=overwrite, progress=update)
     if not quiet:
+        afp, ead, all_ = (output_label(k) for k in ("afp", "ead", "all"))
         for r in table.itertuples(index=False):
             if r.status == "ok":
-                typer.echo(f"{r.scenario:28} AFP {fmt_num(r.afp_predictive_per_yr)} (mode {fmt_num(r.afp_mode_per_yr)}, "
-                           f"x{fmt_ratio(r.afp_ratio)})  EAD {fmt_money(r.ead_predictive_per_yr)} "
-                           f"{currency_text(r.currency)}/yr  ALL {fmt_num(r.all_predictive_lives_per_yr)} lives/yr")
+                typer.echo(f"{r.scenario:28} {afp.short} {afp.fmt(r.afp_predictive_per_yr)} "
+                           f"(mode {afp.fmt(r.afp_mode_per_yr)}, x{fmt_ratio(r.afp_ratio)})  "
+                           f"{ead.short} {ead.fmt(r.ead_predictive_per_yr)} {ead.unit_text(r.currency)}  "
+                           f"{all_.short} {all_.fmt(r.all_predictive_lives_per_yr)} {all_.unit_text()}")
             else:
                 typer.echo(f"{r.scenario:28} {r.status}: {r.error}")
         typer.echo(caution_line())
