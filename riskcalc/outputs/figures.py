@@ -277,7 +277,8 @@ def plot_aep_distribution(result, path_stem=None):
         _vline(ax, p_med, "median", f"median curve AEP {fmt_num(p_med)}")
         ax.set_xlabel("annual exceedance probability of this flood under each realization [1/yr]")
         u = unit_text(ens.unit)
-        ax.set_title(f"AEP of {q} {fmt_quantity(x, q)} {u} (the mode curve's {fmt_aep_axis(crest['design_aep'])}-AEP flood) "
+        ax.set_title(f"AEP of {q} {fmt_quantity(x, q)} {u} "
+                     f"(the mode curve's {fmt_aep_axis(crest['design_aep'])}-AEP flood) "
                      "across the ensemble")
         if n_out:
             ax.plot([], [], " ", label=f"({n_out} realization(s) with AEP 0 not shown)")

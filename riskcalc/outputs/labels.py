@@ -230,7 +230,8 @@ def fmt_return_period(p) -> str:
 
 
 def fmt_aep(p) -> str:
-    """An AEP in prose: a percentage down to 0.1 % (``'1 %'``, ``'0.2 %'``), below that the probability (``'1e-05'``)."""
+    """An AEP in prose: a percentage down to 0.1 % (``'1 %'``, ``'0.2 %'``), below that the probability
+    (``'1e-05'``)."""
     s = _special(p)
     if s is not None:
         return s

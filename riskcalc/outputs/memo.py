@@ -272,6 +272,8 @@ td.n { white-space: nowrap; }
 th { background: #eef1f5; border-bottom: 2px solid #8a97a8; }
 table.hash td:last-child { font-family: "DejaVu Sans Mono", monospace; font-size: 11px; word-break: break-all; }
 table.headline td:first-child { font-weight: bold; min-width: 12em; }
+table.alternatives { font-size: 11.5px; }
+table.alternatives th, table.alternatives td { padding: 4px 4px; }
 figure { margin: 18px 0 22px; }
 figure img { width: 100%; height: auto; border: 1px solid #e3e3e3; }
 figcaption { font-size: 13px; color: var(--muted); margin-top: 4px; }
@@ -717,7 +719,8 @@ def _caution_blocks(summary: dict) -> list[Block]:
         "Life-loss estimates are uncertain by a factor of several even with good data; treat ALL and the F-N "
         "curve as orders of magnitude.",
         (f"Stage above the rating (or routing) table is extrapolated: "
-         f"{fmt_percent(ext.get('share_of_afp_beyond_rating_table'), sig=2)} of the AFP comes from floods above its top "
+         f"{fmt_percent(ext.get('share_of_afp_beyond_rating_table'), sig=2)} of the AFP comes from floods above "
+         f"its top "
          f"({fmt_quantity(ext['rating_table_top'])} {discharge_unit})." if ext.get("rating_table_top") is not None else
          "The hazard is given as peak stage, so no rating curve is used; the stage-frequency ensemble carries "
          "any rating uncertainty itself."),
