@@ -6,6 +6,9 @@ The CLI calls these and nothing else; a notebook can call them too.
 from __future__ import annotations
 
 import dataclasses
+import shutil
+import subprocess
+import tempfile
 from pathlib import Path
 
 from .errors import InputError
@@ -14,7 +17,16 @@ from .io import atomic_output_dir, write_csv
 from .outputs.figures import plot_hazard
 from .outputs.tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
 
-__all__ = ["hazard_step"]
+__all__ = ["hazard_step", "check_scenario", "run_scenario", "sensitivity_workflow", "compare_workflow",
+           "memo_workflow", "find_chromium", "print_pdf"]
+
+
+def _refuse_nonempty(out, overwrite):
+    """Refuse a non-empty output directory before any work, unless ``overwrite``."""
+    out = Path(out)
+    if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:
+        raise InputError("output directory is not empty; pass --overwrite to replace it", out)
+    return out
 
 
 def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, level=0.9, aep_max=0.999,
@@ -27,6 +39,8 @@ def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, 
     summary : pandas.DataFrame
         Mode, median and predictive quantities at the standard AEPs.
     """
+    if quantity not in ("discharge", "stage"):
+        raise InputError(f"--quantity '{quantity}' is not known; expected discharge or stage", key="--quantity")
     for name, v in (("aep_max", aep_max), ("aep_min", aep_min)):
         if not 0 < v < 1:
             raise InputError(f"{name} = {v} must be strictly between 0 and 1", key=name)
@@ -87,14 +101,24 @@ def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity
     return Path(out)
 
 
+def check_scenario(scenario_path):
+    """``riskcalc check``: load and validate a scenario and every table it names, computing nothing.
+
+    Returns
+    -------
+    Scenario
+    """
+    from .config.scenario import load_scenario
+
+    return load_scenario(scenario_path)
+
+
 def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=None, figures=True):
     """Load, validate and assess a scenario, then write its outputs. Returns the :class:`RiskResult`."""
     from .risk.assess import assess
     from .config.scenario import load_scenario
 
-    out = Path(out)
-    if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:
-        raise InputError("output directory is not empty; pass --overwrite to replace it", out)
+    out = _refuse_nonempty(out, overwrite)
     sc = load_scenario(scenario_path)
     result = assess(sc, workers=workers, progress=progress)
     report = None
@@ -102,8 +126,6 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
     from .sensitivity.analysis import sensitivity_for_run
 
     if sensitivity_enabled(sc):
-        import dataclasses
-
         report = sensitivity_for_run(sc, result, workers=workers)
         result = dataclasses.replace(result, sensitivity=report.summary(),
                                      warnings=[*result.warnings, *report.warnings])
@@ -113,10 +135,12 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
         from .outputs.comparison import attach_memo_section
 
         comparison = compare(sc, workers=workers)
-        attach_memo_section(result, comparison)
+        attach_memo_section(result, comparison, figures=figures and sc.outputs.get("figures", True))
     write_run_outputs(result, out, overwrite=overwrite, figures=figures, sensitivity_report=report,
                       comparison=comparison)
     return result
+
+
 def sensitivity_workflow(scenario_path, out, *, n=None, seed=None, second_order=None, target_width=None,
                          morris=None, overwrite=False, workers=None, figures=True):
     """``riskcalc sensitivity``: load, run the chain, compute the report and write it into ``out`` atomically.
@@ -135,9 +159,7 @@ def sensitivity_workflow(scenario_path, out, *, n=None, seed=None, second_order=
     from .sensitivity.analysis import sensitivity_for_run
     from .sensitivity.factors import scenario_factors
 
-    out = Path(out)
-    if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:
-        raise InputError("output directory is not empty; pass --overwrite to replace it", out)
+    out = _refuse_nonempty(out, overwrite)
     sc_ = load_scenario(scenario_path)
     overrides = {"n": n, "seed": seed, "second_order": second_order or None, "target_width": target_width,
                  "morris": morris or None}
@@ -149,3 +171,91 @@ def sensitivity_workflow(scenario_path, out, *, n=None, seed=None, second_order=
     with atomic_output_dir(out, overwrite=overwrite) as tmp:
         write_sensitivity_outputs(report, tmp, figures=figures, json_name="sensitivity.json")
     return result, report
+
+
+def compare_workflow(scenario_path, out, *, overwrite=False, workers=None):
+    """``riskcalc compare``: load a scenario with alternatives, compare them and write the comparison into ``out``.
+
+    Returns
+    -------
+    scenario : Scenario
+    comparison : Comparison
+    """
+    from .config.scenario import load_scenario
+    from .decision.alternatives import compare
+    from .outputs.comparison import write_comparison
+
+    out = _refuse_nonempty(out, overwrite)
+    sc = load_scenario(scenario_path)
+    c = compare(sc, workers=workers)
+    write_comparison(c, out, overwrite=overwrite, figures=bool(sc.outputs.get("figures", True)))
+    return sc, c
+
+
+# --------------------------------------------------------------------------
+# The memo of a finished run, and its PDF
+# --------------------------------------------------------------------------
+#: Flags for a headless Chromium that makes no network requests of its own.
+CHROMIUM_FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                  "--disable-component-update", "--disable-sync", "--no-first-run")
+
+_NO_CHROMIUM = ("--pdf needs Chromium, which was not found on PATH; install it (Debian: apt-get install chromium) "
+                "or open memo.html in a browser and print it")
+
+
+def find_chromium() -> str | None:
+    """Path of a Chromium executable on PATH (``chromium``, then ``chromium-browser``), or None."""
+    for name in ("chromium", "chromium-browser"):
+        path = shutil.which(name)
+        if path:
+            return path
+    return None
+
+
+def print_pdf(html_path, pdf_path, *, timeout=120) -> Path:
+    """Print ``html_path`` to ``pdf_path`` with headless Chromium (written beside, then renamed).
+
+    Raises
+    ------
+    InputError
+        When Chromium is not installed or the print fails.
+    """
+    exe = find_chromium()
+    if exe is None:
+        raise InputError(_NO_CHROMIUM, html_path)
+    html_path, pdf_path = Path(html_path).resolve(), Path(pdf_path).resolve()
+    part = pdf_path.with_name(f".{pdf_path.name}.partial")
+    with tempfile.TemporaryDirectory(prefix="riskcalc-chromium-") as profile:
+        cmd = [exe, *CHROMIUM_FLAGS, f"--user-data-dir={profile}", "--no-pdf-header-footer",
+               f"--print-to-pdf={part}", html_path.as_uri()]
+        try:
+            proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout)
+        except subprocess.TimeoutExpired:
+            part.unlink(missing_ok=True)
+            raise InputError(f"Chromium did not finish printing within {timeout} s", html_path) from None
+    if proc.returncode != 0 or not part.exists() or part.stat().st_size == 0:
+        part.unlink(missing_ok=True)
+        last = (proc.stderr.strip().splitlines() or ["no message"])[-1][:200]
+        raise InputError(f"Chromium could not print the memo to PDF (exit {proc.returncode}: {last})", html_path)
+    part.replace(pdf_path)
+    return pdf_path
+
+
+def memo_workflow(outdir, *, pdf=False) -> list[Path]:
+    """``riskcalc memo``: rebuild memo.md and memo.html of a finished run, and with ``pdf`` print memo.pdf.
+
+    Chromium is looked for before anything is rewritten, so a missing browser changes no file.
+
+    Returns
+    -------
+    list of Path
+        memo.md, memo.html and, with ``pdf``, memo.pdf.
+    """
+    from .outputs.memo import rebuild_memo
+
+    if pdf and find_chromium() is None:
+        raise InputError(_NO_CHROMIUM, outdir)
+    paths = list(rebuild_memo(outdir))
+    if pdf:
+        paths.append(print_pdf(paths[1], Path(outdir) / "memo.pdf"))
+    return paths

@@ -15,17 +15,18 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-import riskcalc.cli.memo as memo_cli  # registers `riskcalc memo` on the app
+import riskcalc.workflows as workflows
 from riskcalc.cli import app, main
 from riskcalc.outputs import figures as plots
 from riskcalc.io import write_json
-from riskcalc.outputs.memo import HEADLINE_ROWS, rebuild_memo, write_memo
+from riskcalc.outputs.labels import HEADLINE_KEYS, output_label
+from riskcalc.outputs.memo import Block, Section, rebuild_memo, write_memo
 from riskcalc.workflows import run_scenario
 
 from conftest import write_scenario
 
 NASTY = '<script>alert(1)</script> & "x" $5'
-CHROMIUM = memo_cli.find_chromium()
+CHROMIUM = workflows.find_chromium()
 needs_chromium = pytest.mark.skipif(CHROMIUM is None, reason="Chromium is not installed (.ci/run installs it)")
 
 
@@ -44,7 +45,7 @@ def run(tmp_path_factory):
 def _chromium(*args, timeout=120):
     profile = Path(__import__("tempfile").mkdtemp(prefix="rc-test-chromium-"))
     try:
-        return subprocess.run([CHROMIUM, *memo_cli.CHROMIUM_FLAGS, f"--user-data-dir={profile}", *args],
+        return subprocess.run([CHROMIUM, *workflows.CHROMIUM_FLAGS, f"--user-data-dir={profile}", *args],
                               capture_output=True, text=True, timeout=timeout)
     finally:
         shutil.rmtree(profile, ignore_errors=True)
@@ -86,10 +87,10 @@ def _number(cell: str) -> float:
 
 
 def _check_headline(rows, summary):
-    """Rows: [label, predictive, mode, median, p05, p50, p95, ratio] in HEADLINE_ROWS order."""
-    assert len(rows) == len(HEADLINE_ROWS)
-    for row, (key, _label, _unit, kind) in zip(rows, HEADLINE_ROWS):
-        h = summary[key]
+    """Rows: [label, predictive, mode, median, p05, p50, p95, ratio] in HEADLINE_KEYS order."""
+    assert len(rows) == len(HEADLINE_KEYS)
+    for row, key in zip(rows, HEADLINE_KEYS):
+        h, kind = summary[key], output_label(key).kind
         want = [h["predictive"], h["mode"], h["median_curve"], h["ensemble"]["p05"], h["ensemble"]["p50"],
                 h["ensemble"]["p95"]]
         for cell, v in zip(row[1:7], want):
@@ -108,7 +109,7 @@ def test_markdown_and_html_hold_the_headline_numbers_of_summary_json(run):
     _, out = run
     summary = json.loads((out / "summary.json").read_text())
     md = (out / "memo.md").read_text()
-    labels = [label for _, label, _, _ in HEADLINE_ROWS]
+    labels = [output_label(k).text(summary["units"]["currency"], unit=False) for k in HEADLINE_KEYS]
     md_rows = [[c.strip().replace("\\", "") for c in line.strip().strip("|").split("|")]
                for line in md.splitlines() if any(line.startswith(f"| {lab}") for lab in labels)]
     _check_headline(md_rows, summary)
@@ -122,9 +123,12 @@ def test_crest_sentence_and_linearity_line(run):
     summary = json.loads((out / "summary.json").read_text())
     md = (out / "memo.md").read_text()
     c = summary["mode_understatement"]["crest_check"]
-    # once in N years = 1 / AEP on the predictive curve; chance in n years 1 - (1 - p)^n (common practice)
-    n_years = 1 / c["mode"]["aep_on_predictive"]
-    assert f"once in {n_years:,.0f} years on the predictive curve, not once in {1 / c['design_aep']:,.0f}" in md
+    # once in N years = 1 / AEP on the predictive curve (common practice), printed in whole years, or to three
+    # significant figures above 1,000 (labels.fmt_return_period) -> error at most 0.5 years or 5e-3 relative
+    m = re.search(r"about once in ([\d,.]+) years on the predictive curve, not once in ([\d,.]+):", md)
+    assert m, md
+    assert _number(m.group(1)) == pytest.approx(1 / c["mode"]["aep_on_predictive"], rel=5e-3, abs=0.5)
+    assert _number(m.group(2)) == pytest.approx(1 / c["design_aep"], rel=5e-3, abs=0.5)
     # every year shares one unknown curve: the n-year chance is the ensemble mean of each curve's chance
     # (checked against simulated n-year sequences in test_risk_chain), below the independent-years figure
     chance = c["mode"]["chance_in_years_predictive"]
@@ -215,7 +219,7 @@ def test_pdf_without_chromium_exits_2(run, tmp_path, monkeypatch, capsys):
     _, out = run
     copy = tmp_path / "copy"
     shutil.copytree(out, copy)
-    monkeypatch.setattr(memo_cli, "find_chromium", lambda: None)
+    monkeypatch.setattr(workflows, "find_chromium", lambda: None)
     with pytest.raises(SystemExit) as exc:
         main(["memo", str(copy), "--pdf"])
     assert exc.value.code == 2
@@ -229,8 +233,10 @@ def test_sensitivity_and_extra_sections_are_rendered(run, tmp_path):
                                                                   "ST_conf": 0.05},
                                            "fragility median": {"S1": 0.2, "S1_conf": 0.03, "ST": 0.27,
                                                                 "ST_conf": 0.04}}}
-    extra = [{"title": "Alternatives <b>", "markdown": "Raise the levee: benefit 1.5 per year.",
-              "html": "<p>Raise the levee: benefit <em>1.5</em> per year.</p>", "figures": []}]
+    extra = [Section("Alternatives <b>", "alternatives", (
+        Block("p", "Raise the levee: benefit <em>1.5</em> per year."),
+        Block("table", header=("alternative", "benefit"), rows=(("raise | levee", "1,500"),)),
+        Block("figure", text="Benefit of each alternative.", figure="benefit_distributions")))]
     r2 = dataclasses.replace(result, sensitivity=sens, extras={"memo_sections": extra})
     out = tmp_path / "out"
     shutil.copytree(run[1], out)  # the run's files; then what a run with these results adds
@@ -241,7 +247,12 @@ def test_sensitivity_and_extra_sections_are_rendered(run, tmp_path):
     page = (out / "memo.html").read_text()
     assert "0.61 ± 0.04" in md and "0.72 ± 0.05" in page and "Saltelli" in md
     assert (out / "figures" / "sensitivity_indices.png").exists()
-    assert "Alternatives &lt;b&gt;" in page and "<em>1.5</em>" in page and "Raise the levee" in md
+    # a section from another stage goes through the same escaping and table code as the memo's own
+    assert "Alternatives &lt;b&gt;" in page and "&lt;em&gt;1.5&lt;/em&gt;" in page and "<em>" not in page
+    assert r"Raise the levee: benefit \<em\>1.5\</em\> per year." in md
+    assert r"| raise \| levee | 1,500 |" in md and '<td class="n">1,500</td>' in page
+    # its figure is left out: no benefit_distributions.png in this run's figures folder
+    assert "benefit_distributions" not in md and "Benefit of each alternative" not in page
     assert md.index("Tolerable-risk comparison") < md.index("Alternatives") < md.index("Warnings")
     before = md
     rebuild_memo(out)

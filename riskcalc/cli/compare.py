@@ -6,21 +6,21 @@ from pathlib import Path
 
 import typer
 
-from . import CAUTION, app
+from ..outputs.labels import caution_line, currency_text, fmt_money, fmt_ratio
 
 
 def ranking_lines(comparison) -> list[str]:
     """The short ranking table printed after a comparison."""
-    cur = comparison.scenario.units["currency"]
+    cur = currency_text(comparison.scenario.units["currency"])
     lines = [f"{'rank':>4}  {'alternative':30}{f'net benefit [{cur}/yr]':>24}{'BCR':>7}{'BCR 5-95 %':>14}"
              f"{'BCR mode':>10}{'rank mode':>11}"]
     r = comparison.ranking
     for i, n in enumerate(r["predictive"], start=1):
         f = comparison.figures[n]
         b = f["benefit_cost_ratio"]
-        band = f"{b['ensemble']['p05']:.2f}-{b['ensemble']['p95']:.2f}"
-        lines.append(f"{i:>4}  {n[:30]:30}{f['net_benefit_per_yr']['predictive']:>24,.0f}{b['predictive']:>7.2f}"
-                     f"{band:>14}{b['mode']:>10.2f}{r['mode'].index(n) + 1:>11}")
+        band = f"{fmt_ratio(b['ensemble']['p05'])}-{fmt_ratio(b['ensemble']['p95'])}"
+        lines.append(f"{i:>4}  {n[:30]:30}{fmt_money(f['net_benefit_per_yr']['predictive']):>24}"
+                     f"{fmt_ratio(b['predictive']):>7}{band:>14}{fmt_ratio(b['mode']):>10}{r['mode'].index(n) + 1:>11}")
     if r["changes_between_predictive_and_mode"]:
         lines.append("The ranking CHANGES on the mode curve: " + ", ".join(r["mode"]))
     else:
@@ -31,7 +31,6 @@ def ranking_lines(comparison) -> list[str]:
     return lines
 
 
-@app.command()
 def compare(
     scenario: Path = typer.Argument(..., help="Scenario file (.toml) with [[alternatives]] and [economics]."),
     out: Path = typer.Option(..., "--out", "-o", help="Output directory (created; replaced only with --overwrite)."),
@@ -47,20 +46,13 @@ def compare(
     writes out/alternatives/comparison.json, comparison.md, tables/alternatives.csv,
     tables/paired_differences.csv and figures/benefit_distributions.png|svg, and prints the ranking.
     """
-    from ..decision.alternatives import compare as run_compare
-    from ..outputs.comparison import write_comparison
-    from ..errors import InputError
-    from ..config.scenario import load_scenario
+    from ..workflows import compare_workflow
 
-    if out.exists() and out.is_dir() and any(out.iterdir()) and not overwrite:
-        raise InputError("output directory is not empty; pass --overwrite to replace it", out)
-    sc = load_scenario(scenario)
-    c = run_compare(sc, workers=workers or None)
-    write_comparison(c, out, overwrite=overwrite, figures=bool(sc.outputs.get("figures", True)))
+    sc, c = compare_workflow(scenario, out, overwrite=overwrite, workers=workers or None)
     typer.echo(sc.title)
     for line in ranking_lines(c):
         typer.echo(line)
     for note in c.notes:
         typer.echo(f"note: {note}")
-    typer.echo(CAUTION)
+    typer.echo(caution_line())
     typer.echo(f"results: {out}/")

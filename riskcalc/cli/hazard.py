@@ -6,11 +6,9 @@ from pathlib import Path
 
 import typer
 
-from ..errors import InputError
-from . import CAUTION, _fmt, app
+from ..outputs.labels import caution_line, fmt_num, fmt_quantity, fmt_return_period, unit_text
 
 
-@app.command()
 def hazard(
     ensemble: Path = typer.Argument(..., help="Ensemble table (.csv or .xlsx): parameter sets, or a long curve table."),
     family: str = typer.Option(..., "--family", "-f",
@@ -30,22 +28,21 @@ def hazard(
 
         riskcalc hazard scenarios/amberlow_levee/ensemble_lp3.csv --family lp3 --unit m3s --out out/hazard
 
-    writes out/hazard/hazard_by_discharge.csv, hazard_by_aep.csv and
-    figures/hazard_ensemble.png|svg, and prints the standard-AEP table.
+    writes out/hazard/hazard_by_discharge.csv, hazard_by_aep.csv and figures/hazard_ensemble.png|svg,
+    and prints the standard-AEP table. The same step runs inside `riskcalc run` from the scenario's
+    [hazard] table.
     """
     from ..workflows import hazard_step
 
-    if quantity not in ("discharge", "stage"):
-        raise InputError(f"--quantity '{quantity}' is not known; expected discharge or stage", key="--quantity")
     curves, table = hazard_step(ensemble, family, out, quantity=quantity, unit=unit, level=level,
                                 aep_max=aep_max, aep_min=aep_min, n_grid=grid, overwrite=overwrite)
     typer.echo(curves.mode_note)
     lo, hi = curves.band_names
-    head = f"{'AEP':>8} {'1 in':>7} {'mode':>12} {'median':>12} {'predictive':>12} {lo:>12} {hi:>12}"
-    typer.echo(head)
+    if curves.unit:
+        typer.echo(f"{curves.quantity} [{unit_text(curves.unit)}] at the standard AEPs:")
+    typer.echo(f"{'AEP':>8} {'1 in':>7} {'mode':>12} {'median':>12} {'predictive':>12} {lo:>12} {hi:>12}")
     for row in table.itertuples(index=False):
-        typer.echo(f"{row[0]:>8g} {row[1]:>7,.0f} " + " ".join(f"{_fmt(v):>12}" for v in row[2:]))
+        typer.echo(f"{fmt_num(row[0]):>8} {fmt_return_period(row[0]):>7} "
+                   + " ".join(f"{fmt_quantity(v, curves.quantity):>12}" for v in row[2:]))
     typer.echo(f"wrote {out}/")
-    typer.echo(CAUTION)
-
-
+    typer.echo(caution_line(short=True))

@@ -6,10 +6,9 @@ from pathlib import Path
 
 import typer
 
-from . import CAUTION, app
+from ..outputs.labels import caution_line, fmt_ratio, output_label
 
 
-@app.command()
 def portfolio(
     paths: list[Path] = typer.Argument(..., help="Scenario files, folders of them, or .txt lists of them."),
     out: Path = typer.Option(..., "--out", "-o", help="Output directory: portfolio.csv and one folder a scenario."),
@@ -34,13 +33,15 @@ def portfolio(
     with progress_bar("scenarios", enabled=not quiet) as update:
         table = run_portfolio(paths, out, workers=workers, scheduler=scheduler, overwrite=overwrite, progress=update)
     if not quiet:
+        afp, ead, all_ = (output_label(k) for k in ("afp", "ead", "all"))
         for r in table.itertuples(index=False):
             if r.status == "ok":
-                typer.echo(f"{r.scenario:28} AFP {r.afp_predictive_per_yr:.3g} (mode {r.afp_mode_per_yr:.3g}, "
-                           f"x{r.afp_ratio:.2f})  EAD {r.ead_predictive_per_yr:,.0f} {r.currency}/yr  "
-                           f"ALL {r.all_predictive_lives_per_yr:.3g}/yr")
+                typer.echo(f"{r.scenario:28} {afp.short} {afp.fmt(r.afp_predictive_per_yr)} "
+                           f"(mode {afp.fmt(r.afp_mode_per_yr)}, x{fmt_ratio(r.afp_ratio)})  "
+                           f"{ead.short} {ead.fmt(r.ead_predictive_per_yr)} {ead.unit_text(r.currency)}  "
+                           f"{all_.short} {all_.fmt(r.all_predictive_lives_per_yr)} {all_.unit_text()}")
             else:
                 typer.echo(f"{r.scenario:28} {r.status}: {r.error}")
-        typer.echo(CAUTION)
+        typer.echo(caution_line())
     failed = int((table["status"] != "ok").sum())
     typer.echo(f"portfolio: {len(table) - failed} of {len(table)} scenarios ran; table: {out}/portfolio.csv")

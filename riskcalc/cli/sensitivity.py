@@ -6,17 +6,10 @@ from pathlib import Path
 
 import typer
 
-from . import CAUTION, app
-
-_SHORT = {"annual_failure_probability": "AFP", "expected_annual_damage": "EAD", "annualized_life_loss": "ALL"}
+from ..outputs.labels import caution_line, fmt_ratio, output_label
 
 
-def _f(v, fmt="{:.3f}"):
-    return "n/a" if v is None or v != v else fmt.format(v)
-
-
-@app.command("sensitivity")
-def sensitivity_command(
+def sensitivity(
     scenario: Path = typer.Argument(..., help="Scenario file (.toml)."),
     out: Path = typer.Option(..., "--out", "-o", help="Output directory (created; replaced only with --overwrite)."),
     n: int = typer.Option(None, "--n", help="Base sample size N, a power of two (default: [sensitivity].n or 1024)."),
@@ -36,28 +29,30 @@ def sensitivity_command(
 
     writes out/amberlow_sens/sensitivity.json, tables/sobol_indices.csv,
     tables/mean_mode_gap_by_source.csv and figures/sensitivity_indices.png|svg, and prints the
-    ranked indices.
+    ranked indices. Settings come from the scenario's [sensitivity] table; the options here override it.
     """
     from ..workflows import sensitivity_workflow
 
-    _, report = sensitivity_workflow(scenario, out, n=n, seed=seed, second_order=second_order,
-                                     target_width=target_width, morris=morris, overwrite=overwrite,
-                                     workers=workers or None)
+    result, report = sensitivity_workflow(scenario, out, n=n, seed=seed, second_order=second_order,
+                                          target_width=target_width, morris=morris, overwrite=overwrite,
+                                          workers=workers or None)
+    cur = result.scenario.units["currency"]
     for key, r in report.sobol.items():
-        typer.echo(f"{_SHORT[key]} (N = {r.n}, {r.n_evaluations:,} model runs)")
+        typer.echo(f"{output_label(key).short} (N = {r.n}, {r.n_evaluations:,} model runs)")
         if r.note:
             typer.echo(f"  {r.note}")
             continue
         typer.echo(f"  {'factor':40}{'S1':>8}{'+/-':>8}{'ST':>8}{'+/-':>8}")
         order = sorted(range(len(r.factors)), key=lambda i: -(r.ST[i] if r.ST[i] == r.ST[i] else -1))
         for i in order:
-            typer.echo(f"  {r.factors[i][:40]:40}{_f(r.S1[i]):>8}{_f(r.S1_conf[i]):>8}{_f(r.ST[i]):>8}"
-                       f"{_f(r.ST_conf[i]):>8}")
+            typer.echo(f"  {r.factors[i][:40]:40}{fmt_ratio(r.S1[i]):>8}{fmt_ratio(r.S1_conf[i]):>8}"
+                       f"{fmt_ratio(r.ST[i]):>8}{fmt_ratio(r.ST_conf[i]):>8}")
     typer.echo("mean-mode gap by source (predictive - mode):")
     for row in report.gap.itertuples(index=False):
-        typer.echo(f"  {row.source:13}{_SHORT[row.output]:>4} {row.gap:>12.4g} {row.unit:<16} ratio "
-                   f"{_f(row.ratio, '{:.2f}')}")
+        o = output_label(row.output)
+        typer.echo(f"  {row.source:13}{o.short:>4} {o.fmt(row.gap):>12} {o.unit_text(cur):<10} ratio "
+                   f"{fmt_ratio(row.ratio)}")
     for w in report.warnings:
         typer.echo(f"warning: {w}")
     typer.echo(f"results: {out}/")
-    typer.echo(CAUTION)
+    typer.echo(caution_line())

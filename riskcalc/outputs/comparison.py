@@ -1,21 +1,33 @@
-"""Views of a comparison of alternatives: comparison.json, tidy tables, the benefit figure, the memo section."""
+"""Views of a comparison of alternatives: comparison.json, tidy tables, the benefit figure, the memo section.
+
+The memo section is a :class:`riskcalc.outputs.memo.Section` of blocks, rendered by the memo's own
+Markdown and HTML code (``comparison.md``, and the alternatives section of a run's memo); words, units
+and number formats come from :mod:`riskcalc.outputs.labels`.
+"""
 
 from __future__ import annotations
 
-import html
 from pathlib import Path
 import numpy as np
 from ..decision import economics as ec
-from .summary import CAUTION_TEXT
 from ..io import to_plain as _plain
 from ..config.decision import BASE_NAME
 from ..decision.alternatives import Comparison, _fn_point, _guideline_lines, _stats
+from .labels import CAUTION, currency_text, fmt_money, fmt_num, fmt_ratio, output_label
+from .memo import Block, Section, blocks_html, blocks_markdown, number_figures
+
+#: Title of the alternatives section (comparison.md and the memo).
+SECTION_TITLE = "Alternatives and economics"
 
 
-def comparison_dict(c: Comparison) -> dict:
-    """The comparison.json structure (plain JSON types; non-finite numbers become null)."""
-    sc, s, w = c.scenario, c.settings, c.weights
-    base = {"expected_annual_damage_per_yr": {"predictive": float(w @ c.equivalent[BASE_NAME]["ead"]),
+def without_project(c: Comparison) -> dict:
+    """The without-project figures of comparison.json: EAD, ALL and AFP (predictive, mode) and the f-N point.
+
+    These are weighted means of the base plan's per-draw figures, which :class:`Comparison` holds but does not
+    summarize; they are computed here once for comparison.json and tables/alternatives.csv.
+    """
+    sc, w = c.scenario, c.weights
+    return {"expected_annual_damage_per_yr": {"predictive": float(w @ c.equivalent[BASE_NAME]["ead"]),
                                               "mode": c.equivalent_mode[BASE_NAME]["ead"],
                                               "ensemble": _stats(c.equivalent[BASE_NAME]["ead"], w)},
             "annualized_life_loss_lives_per_yr": {"predictive": float(w @ c.equivalent[BASE_NAME]["all"]),
@@ -25,6 +37,12 @@ def comparison_dict(c: Comparison) -> dict:
             "fn_point": _fn_point(float(w @ c.risks[BASE_NAME][0].values["afp"]),
                                   float(w @ c.risks[BASE_NAME][0].values["all_incremental"]),
                                   _guideline_lines(sc))}
+
+
+def comparison_dict(c: Comparison) -> dict:
+    """The comparison.json structure (plain JSON types; non-finite numbers become null)."""
+    sc, s, w = c.scenario, c.settings, c.weights
+    base = without_project(c)
     return _plain({
         "title": sc.title, "units": sc.units,
         "economics": {"rate": s.rate, "period_years": s.period_years, "base_year": s.base_year,
@@ -33,7 +51,7 @@ def comparison_dict(c: Comparison) -> dict:
                       "capital_recovery_factor": float(ec.capital_recovery_factor(s.rate, s.period_years))},
         "draws": int(w.size), "draws_per_realization": c.draws_per_realization, "seed": sc.seed,
         "without_project": base, "alternatives": c.figures, "ranking": c.ranking, "notes": c.notes,
-        "caution": CAUTION_TEXT,
+        "caution": CAUTION,
     })
 
 
@@ -42,6 +60,7 @@ def alternatives_table(c: Comparison):
     import pandas as pd
 
     cur = c.scenario.units["currency"]
+    ead_without = without_project(c)["expected_annual_damage_per_yr"]["predictive"]
     rows = []
     for name, f in c.figures.items():
         b, bcr = f["expected_annual_benefit_per_yr"], f["benefit_cost_ratio"]
@@ -52,7 +71,7 @@ def alternatives_table(c: Comparison):
             "construction_months": f["costs"]["construction_months"],
             f"interest_during_construction_{cur}": f["costs"]["interest_during_construction"],
             f"annualized_cost_{cur}_per_yr": f["costs"]["annualized_cost_per_yr"],
-            f"ead_without_{cur}_per_yr": float(c.weights @ c.equivalent[BASE_NAME]["ead"]),
+            f"ead_without_{cur}_per_yr": ead_without,
             f"ead_with_{cur}_per_yr": f["expected_annual_damage_per_yr"]["predictive"],
             f"benefit_{cur}_per_yr": b["predictive"],
             f"benefit_p05_{cur}_per_yr": b["ensemble"]["p05"],
@@ -107,7 +126,7 @@ def plot_benefit_distributions(c: Comparison, path_stem=None):
     """
     from ..outputs.figures import STYLE, plt, save
 
-    cur = c.scenario.units["currency"].upper()
+    cur = currency_text(c.scenario.units["currency"])
     names = [a.name for a in c.alternatives]
     rc = {"font.size": 9, "axes.titlesize": 10, "axes.labelsize": 9, "legend.fontsize": 8,
           "axes.spines.top": False, "axes.spines.right": False, "svg.hashsalt": "riskcalc", "svg.fonttype": "none"}
@@ -129,8 +148,8 @@ def plot_benefit_distributions(c: Comparison, path_stem=None):
             ax.axvline(f["costs"]["annualized_cost_per_yr"] / 1e6, color=STYLE["accent"], lw=1.4,
                        ls=(0, (1, 1.5)), label="annualized cost")
             ax.set_ylabel("weight")
-            ax.set_title(f"{n}: benefit-cost ratio {f['benefit_cost_ratio']['predictive']:.2f} "
-                         f"(mode curve {f['benefit_cost_ratio']['mode']:.2f})", loc="left")
+            ax.set_title(f"{n}: benefit-cost ratio {fmt_ratio(f['benefit_cost_ratio']['predictive'])} "
+                         f"(mode curve {fmt_ratio(f['benefit_cost_ratio']['mode'])})", loc="left")
             ax.grid(True, axis="x", color=STYLE["grid"], lw=0.6)
         axes[0, 0].legend(loc="upper right", frameon=False)
         axes[-1, 0].set_xlabel(f"expected annual benefit [million {cur}/yr] (draws beyond the 0.5-99.5 % range "
@@ -141,33 +160,26 @@ def plot_benefit_distributions(c: Comparison, path_stem=None):
         return save(fig, path_stem)
 
 
-def _money(v):
-    if v is None or not np.isfinite(v):
-        return "n/a" if v is None or np.isnan(v) else ("∞" if v > 0 else "−∞")
-    return f"{v:,.0f}"
-
-
-def _g(v, digits=3):
-    if v is None or not np.isfinite(v):
-        return "n/a"
-    return f"{v:.{digits}g}"
-
-
 def _table_rows(c: Comparison):
     cur = c.scenario.units["currency"]
-    header = ["alternative", f"annualized cost [{cur}/yr]", f"benefit [{cur}/yr]", "benefit 5–95 %",
-              f"benefit, mode curve [{cur}/yr]", "pred/mode", f"net benefit [{cur}/yr]", "BCR (5–95 %)",
-              "AFP reduction [1/yr]", "ALL reduction [lives/yr]", f"net cost per statistical life saved [{cur}] (a)", "rank pred/mode"]
+    money = f"[{currency_text(cur)}/yr]"
+    afp, all_ = output_label("annual_failure_probability"), output_label("annualized_life_loss")
+    header = ["alternative", f"annualized cost {money}", f"benefit {money}", "benefit 5–95 %",
+              f"benefit, mode curve {money}", "pred/mode", f"net benefit {money}", "BCR (5–95 %)",
+              f"{afp.short} reduction [{afp.unit_text(cur)}]", f"{all_.short} reduction [{all_.unit_text(cur)}]",
+              f"net cost per statistical life saved [{currency_text(cur)}] (a)", "rank pred/mode"]
     rows = []
     for n in c.ranking["predictive"]:
         f = c.figures[n]
         b, bcr = f["expected_annual_benefit_per_yr"], f["benefit_cost_ratio"]
-        rows.append([n, _money(f["costs"]["annualized_cost_per_yr"]), _money(b["predictive"]),
-                     f"{_money(b['ensemble']['p05'])} to {_money(b['ensemble']['p95'])}", _money(b["mode"]),
-                     _g(b["ratio_predictive_to_mode"]), _money(f["net_benefit_per_yr"]["predictive"]),
-                     f"{bcr['predictive']:.2f} ({bcr['ensemble']['p05']:.2f}–{bcr['ensemble']['p95']:.2f})",
-                     _g(f["afp_reduction_per_yr"]["predictive"]), _g(f["all_reduction_lives_per_yr"]["predictive"]),
-                     _money(f["cost_per_statistical_life_saved"]["predictive"]),
+        rows.append([n, fmt_money(f["costs"]["annualized_cost_per_yr"]), fmt_money(b["predictive"]),
+                     f"{fmt_money(b['ensemble']['p05'])} to {fmt_money(b['ensemble']['p95'])}", fmt_money(b["mode"]),
+                     fmt_ratio(b["ratio_predictive_to_mode"]), fmt_money(f["net_benefit_per_yr"]["predictive"]),
+                     f"{fmt_ratio(bcr['predictive'])} ({fmt_ratio(bcr['ensemble']['p05'])}–"
+                     f"{fmt_ratio(bcr['ensemble']['p95'])})",
+                     fmt_num(f["afp_reduction_per_yr"]["predictive"]),
+                     fmt_num(f["all_reduction_lives_per_yr"]["predictive"]),
+                     fmt_money(f["cost_per_statistical_life_saved"]["predictive"]),
                      f"{c.ranking['predictive'].index(n) + 1} / {c.ranking['mode'].index(n) + 1}"])
     return header, rows
 
@@ -191,14 +203,23 @@ def _ranking_sentence(c: Comparison) -> str:
     return s
 
 
-def memo_section(c: Comparison) -> dict:
-    """The alternatives section of the decision memo.
+#: The economics part of the caution, shown with :data:`~riskcalc.outputs.labels.CAUTION` in the section.
+ECONOMICS_CAUTION = ("The discount rate, the period of analysis and the economic guidance are the governing agency's "
+                     "to set, and the economic figures need the same review by qualified economists.")
 
-    Returns
-    -------
-    dict
-        ``{"title", "markdown", "html" (an escaped fragment), "figures": [stems]}``;
-        the figure stems are relative to the figures folder.
+#: Caption of the benefit figure.
+BENEFIT_CAPTION = ("Expected annual benefit of each alternative over the paired draws (weighted histogram), with the "
+                   "predictive (mean) benefit, the mode-curve benefit and the annualized cost marked.")
+
+
+def alternatives_section(c: Comparison, *, figures: bool = True) -> Section:
+    """The alternatives section of the decision memo (and of comparison.md), as blocks.
+
+    Parameters
+    ----------
+    c : Comparison
+    figures : bool
+        Include the benefit figure (``figures/benefit_distributions.png``).
     """
     s = c.settings
     header, rows = _table_rows(c)
@@ -214,36 +235,45 @@ def memo_section(c: Comparison) -> dict:
         p = c.figures[n]["fn_point"]
         worst = max(p["checks"], key=lambda ch: -1 if ch["ratio"] is None or not np.isfinite(ch["ratio"])
                     else ch["ratio"], default=None)
-        text = f"{n}: f-N point AFP {_g(p['afp_per_yr'])} per year, N {_g(p['n_lives'])}"
-        if worst is not None and np.isfinite(worst["ratio"]):
-            text += f"; largest ratio to a reference line {worst['ratio']:.2f} ({worst['line']})"
+        text = f"{n}: f-N point AFP {fmt_num(p['afp_per_yr'])} per year, N {fmt_num(p['n_lives'])}"
+        if worst is not None and worst["ratio"] is not None and np.isfinite(worst["ratio"]):
+            text += f"; largest ratio to a reference line {fmt_ratio(worst['ratio'])} ({worst['line']})"
         fn_lines.append(text)
-    caution = ("These figures support, and never replace, the judgment of qualified, licensed engineers and "
-               "economists; the governing agency's current policy, discount rate and local codes decide. "
-               + CAUTION_TEXT)
-    md = [intro, "", "| " + " | ".join(header) + " |", "|" + "---|" * len(header)]
-    md += ["| " + " | ".join(r) + " |" for r in rows]
-    md += ["", _NET_COST_NOTE, "", _ranking_sentence(c), "", "f-N points (base year, predictive):", ""]
-    md += [f"- {t}" for t in fn_lines]
+    blocks = [Block("p", intro),
+              Block("table", header=tuple(header), rows=tuple(tuple(r) for r in rows), css="alternatives"),
+              Block("p", _NET_COST_NOTE), Block("p", _ranking_sentence(c)),
+              Block("p", "f-N points (base year, predictive):"), Block("list", items=tuple(fn_lines))]
     if c.notes:
-        md += ["", "Notes:", ""] + [f"- {t}" for t in c.notes]
-    md += ["", "![Benefit distributions](figures/benefit_distributions.png)", "", f"*{caution}*", ""]
-    e = html.escape
-    h = [f"<section class=\"alternatives\"><h2>{e('Alternatives and economics')}</h2>", f"<p>{e(intro)}</p>",
-         "<table><thead><tr>" + "".join(f"<th>{e(x)}</th>" for x in header) + "</tr></thead><tbody>"]
-    h += ["<tr>" + "".join(f"<td>{e(x)}</td>" for x in r) + "</tr>" for r in rows]
-    h += ["</tbody></table>", f"<p class=\"note\">{e(_NET_COST_NOTE)}</p>", f"<p>{e(_ranking_sentence(c))}</p>",
-          "<ul>" + "".join(f"<li>{e(t)}</li>" for t in fn_lines) + "</ul>"]
-    if c.notes:
-        h.append("<ul>" + "".join(f"<li>{e(t)}</li>" for t in c.notes) + "</ul>")
-    h += [f"<p class=\"caution\"><em>{e(caution)}</em></p>", "</section>"]
-    return {"title": "Alternatives and economics", "markdown": "\n".join(md), "html": "\n".join(h),
-            "figures": ["benefit_distributions"]}
+        blocks += [Block("p", "Notes:"), Block("list", items=tuple(str(t) for t in c.notes))]
+    if figures:
+        blocks.append(Block("figure", text=BENEFIT_CAPTION, figure="benefit_distributions"))
+    blocks.append(Block("caution", f"{CAUTION} {ECONOMICS_CAUTION}"))
+    return Section(SECTION_TITLE, "alternatives", tuple(blocks))
 
 
-def attach_memo_section(result, c: Comparison) -> dict:
-    """Add :func:`memo_section` to ``result.extras["memo_sections"]`` (a RiskResult) and return the section."""
-    sec = memo_section(c)
+def _numbered(sec: Section) -> tuple:
+    """The section's blocks with its figures numbered from 1 (as in comparison.md, which stands alone)."""
+    return tuple(number_figures(sec.blocks, {f: "" for f in sec.figures})[0])
+
+
+def memo_section(c: Comparison, *, figures: bool = True) -> dict:
+    """The alternatives section rendered by the memo's Markdown and HTML code.
+
+    Returns
+    -------
+    dict
+        ``{"title", "markdown", "html" (an escaped fragment), "figures": [stems]}``; figures are linked as
+        ``figures/<stem>.png``, relative to the folder that holds comparison.md.
+    """
+    sec = alternatives_section(c, figures=figures)
+    blocks = _numbered(sec)
+    return {"title": sec.title, "markdown": blocks_markdown(blocks), "html": blocks_html(blocks),
+            "figures": sec.figures}
+
+
+def attach_memo_section(result, c: Comparison, *, figures: bool = True) -> Section:
+    """Add :func:`alternatives_section` to ``result.extras["memo_sections"]`` (a RiskResult) and return it."""
+    sec = alternatives_section(c, figures=figures)
     result.extras.setdefault("memo_sections", []).append(sec)
     return sec
 
@@ -260,8 +290,8 @@ def write_comparison_files(c: Comparison, folder, *, figures=True) -> None:
     write_csv(folder / "tables" / "paired_differences.csv", paired_differences_table(c))
     if figures:
         plot_benefit_distributions(c, folder / "figures" / "benefit_distributions")
-    sec = memo_section(c)
-    (folder / "comparison.md").write_text(f"# {sec['title']}\n\n{sec['markdown']}", encoding="utf-8")
+    sec = memo_section(c, figures=figures)
+    (folder / "comparison.md").write_text(f"# {sec['title']}\n\n{sec['markdown']}\n", encoding="utf-8")
 
 
 def write_comparison(c: Comparison, out, *, overwrite=False, figures=True) -> Path:

@@ -16,6 +16,9 @@ import numpy as np  # noqa: E402
 from matplotlib.ticker import FixedLocator, NullLocator  # noqa: E402
 from scipy import special as sc  # noqa: E402
 
+from .labels import (HEADLINE_KEYS, currency_text, fmt_aep_axis, fmt_num, fmt_quantity, output_label,  # noqa: E402
+                     unit_text)
+
 __all__ = ["STYLE", "SERIES", "GUIDE", "FIGURE_STEMS", "save", "probability_axis", "plot_hazard",
            "plot_aep_distribution", "plot_response", "plot_consequences", "plot_risk_distributions", "plot_fn",
            "plot_contributions", "plot_sensitivity", "run_figures", "scenario_guidelines", "merged_chart_lines"]
@@ -62,15 +65,15 @@ def probability_axis(ax, aep_min=1e-7, aep_max=0.999):
     ticks = [t for t in _AEP_TICKS if aep_min * 0.999 <= t <= aep_max * 1.001]
     ax.xaxis.set_major_locator(FixedLocator(paper_x(ticks)))
     ax.xaxis.set_minor_locator(NullLocator())
-    ax.set_xticklabels([f"{t:g}" if t >= 0.01 else f"1e{int(round(np.log10(t)))}" for t in ticks])
+    ax.set_xticklabels([fmt_aep_axis(t) for t in ticks])
     ax.set_xlim(paper_x(aep_max), paper_x(aep_min))
     ax.set_xlabel("annual exceedance probability (normal probability scale)")
     ax.grid(True, color=STYLE["grid"], lw=0.6)
 
 
 def quantity_label(quantity, unit):
-    names = {"m3s": "m³/s", "cfs": "ft³/s", "m": "m", "ft": "ft"}
-    return f"peak {quantity}" + (f" [{names.get(unit, unit)}]" if unit else "")
+    """Axis label of a hazard quantity: ``'peak discharge [m³/s]'``."""
+    return f"peak {quantity}" + (f" [{unit_text(unit)}]" if unit else "")
 
 
 def plot_hazard(curves, ens=None, path_stem=None, *, title="Hazard ensemble", max_members=150, seed=1):
@@ -153,9 +156,6 @@ MARK = {
 FIGURE_STEMS = ("hazard_ensemble", "aep_at_design_discharge", "response_curves", "consequence_curves",
                 "risk_distributions", "fn_chart", "risk_by_aep_band", "sensitivity_indices")
 
-_UNIT_TEXT = {"m3s": "m³/s", "cfs": "ft³/s", "m": "m", "ft": "ft"}
-
-
 _SUP = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 
 
@@ -182,34 +182,9 @@ def log_axis(ax, which="x"):
         axis.set_minor_formatter(NullFormatter())
 
 
-def fmt_num(v) -> str:
-    """Three significant figures: ``0.00873``, ``1.12e-05``, ``12.3``."""
-    if v is None or not np.isfinite(v):
-        return "n/a"
-    return f"{v:.3g}"
-
-
-def fmt_money(v) -> str:
-    """Whole currency units with thousands separators: ``1,227,087``."""
-    if v is None or not np.isfinite(v):
-        return "n/a"
-    return f"{v:,.0f}" if abs(v) >= 100 else f"{v:.3g}"
-
-
 def _t(s) -> str:
     """User text for Matplotlib: a literal ``$`` must not start mathtext."""
     return str(s).replace("$", r"\$")
-
-
-def unit_text(code) -> str:
-    return _UNIT_TEXT.get(code, code or "")
-
-
-def _aep_label(p) -> str:
-    if not p > 0:
-        return "0"
-    return f"{p:g}" if p >= 0.01 else f"1e{int(round(np.log10(p)))}" if np.isclose(
-        p, 10 ** round(np.log10(p))) else f"{p:.1e}"
 
 
 def scenario_guidelines(scenario):
@@ -296,13 +271,14 @@ def plot_aep_distribution(result, path_stem=None):
         fig, ax = plt.subplots(figsize=(7.0, 4.0))
         n_out, _ = _weighted_hist(ax, p, ens.weights, label=f"{ens.size} realizations (weighted)")
         _vline(ax, crest["mode"]["aep_on_predictive"], "predictive",
-               f"mean (predictive) AEP {crest['mode']['aep_on_predictive']:.3g}")
-        _vline(ax, crest["design_aep"], "mode", f"mode curve AEP {crest['design_aep']:g}")
+               f"mean (predictive) AEP {fmt_num(crest['mode']['aep_on_predictive'])}")
+        _vline(ax, crest["design_aep"], "mode", f"mode curve AEP {fmt_num(crest['design_aep'])}")
         p_med = float(result.curves.median.aep(np.array([x]))[0, 0])
-        _vline(ax, p_med, "median", f"median curve AEP {p_med:.3g}")
+        _vline(ax, p_med, "median", f"median curve AEP {fmt_num(p_med)}")
         ax.set_xlabel("annual exceedance probability of this flood under each realization [1/yr]")
         u = unit_text(ens.unit)
-        ax.set_title(f"AEP of {q} {x:,.0f} {u} (the mode curve's {_aep_label(crest['design_aep'])}-AEP flood) "
+        ax.set_title(f"AEP of {q} {fmt_quantity(x, q)} {u} "
+                     f"(the mode curve's {fmt_aep_axis(crest['design_aep'])}-AEP flood) "
                      "across the ensemble")
         if n_out:
             ax.plot([], [], " ", label=f"({n_out} realization(s) with AEP 0 not shown)")
@@ -338,9 +314,10 @@ def plot_response(result, path_stem=None):
             top = result.extrapolation.get("rating_table_top")
             if top:
                 ax.axvline(top, color=GUIDE[1]["color"], ls=GUIDE[1]["ls"], lw=1.0,
-                           label=f"top of rating table ({top:,.0f} {unit_text(u['discharge'])}); extrapolated above")
+                           label=f"top of rating table ({fmt_quantity(top)} {unit_text(u['discharge'])}); "
+                           "extrapolated above")
             ax.plot([crest["discharge"]], [crest["stage"]], ls="none", **MARK["mode"],
-                    label=f"mode curve's {_aep_label(result.crest['design_aep'])}-AEP flood")
+                    label=f"mode curve's {fmt_aep_axis(result.crest['design_aep'])}-AEP flood")
             log_axis(ax, "x")
             ax.set_xlabel(quantity_label("discharge", u["discharge"]))
             ax.set_ylabel(f"peak stage [{su}]")
@@ -362,7 +339,7 @@ def plot_response(result, path_stem=None):
             sys_label = f"system (one mode: {_t(modes[0])})"
         ax.plot(h, df["p_failure_system"].to_numpy()[plausible], **STYLE["predictive"], label=sys_label)
         ax.axvline(crest["stage"], color=MARK["mode"]["color"], lw=0.9, ls=(0, (4, 2)),
-                   label=f"stage of the mode curve's {_aep_label(result.crest['design_aep'])}-AEP flood")
+                   label=f"stage of the mode curve's {fmt_aep_axis(result.crest['design_aep'])}-AEP flood")
         ax.set_ylim(-0.02, 1.02)
         ax.set_xlabel(f"peak stage [{su}]")
         ax.set_ylabel("probability of failure given stage [-]")
@@ -385,7 +362,7 @@ def plot_consequences(result, path_stem=None):
     """Damage and life loss against stage, given breach and given no breach (the consequence table)."""
     sc = result.scenario
     c = sc.model.consequences
-    cur = sc.units["currency"].upper()
+    cur = currency_text(sc.units["currency"])
     su = unit_text(sc.units["stage"])
     h = np.asarray(c.stage, float)
     pad = 0.05 * (h[-1] - h[0] if h[-1] > h[0] else 1.0)
@@ -427,14 +404,14 @@ def plot_consequences(result, path_stem=None):
 def plot_risk_distributions(result, path_stem=None):
     """AFP, EAD and ALL across the Monte Carlo draws (weighted histograms, log axes), predictive and mode marked."""
     prop = result.propagation
-    cur = result.scenario.units["currency"].upper()
-    panels = (("afp", "annual_failure_probability", "AFP [1/yr]"),
-              ("ead", "expected_annual_damage", f"EAD [{cur}/yr]"),
-              ("all", "annualized_life_loss", "ALL [lives/yr]"))
+    cur = result.scenario.units["currency"]
+    panels = (("afp", "annual_failure_probability"), ("ead", "expected_annual_damage"),
+              ("all", "annualized_life_loss"))
     with plt.rc_context(_rc()):
         fig, axes = plt.subplots(1, 3, figsize=(10.0, 4.0))
-        for ax, (n, key, label) in zip(axes, panels):
-            fmt = fmt_money if n == "ead" else fmt_num
+        for ax, (n, key) in zip(axes, panels):
+            o = output_label(key)
+            fmt, label = o.fmt, o.axis(cur)
             h = result.headline[key]
             e = h["ensemble"]
             n_out, _ = _weighted_hist(ax, prop.column(n), prop.weights)
@@ -446,7 +423,7 @@ def plot_risk_distributions(result, path_stem=None):
             if h["mode"] > 0:
                 _vline(ax, h["mode"], "mode", f"mode curve {fmt(h['mode'])}")
             ax.set_xlabel(label)
-            ax.set_title(label.split(" [")[0] + " across the ensemble")
+            ax.set_title(f"{o.short} across the ensemble")
             if n_out:
                 ax.plot([], [], " ", label=f"({n_out} draw(s) at 0 not shown)")
             ax.legend(loc="upper left", fontsize=7.5)
@@ -576,14 +553,14 @@ def band_labels(bands):
     """``[(hi, lo), ...]`` AEP bands as text: ``'0.1–0.01'``, ``'< 1e-6'``."""
     out = []
     for hi, lo in bands:
-        out.append(f"< {_aep_label(hi)}" if lo <= 0 else f"{_aep_label(hi)}–{_aep_label(lo)}")
+        out.append(f"< {fmt_aep_axis(hi)}" if lo <= 0 else f"{fmt_aep_axis(hi)}–{fmt_aep_axis(lo)}")
     return out
 
 
 def plot_contributions(result, path_stem=None):
     """Share of AFP, EAD and ALL from each AEP band of the predictive curve (grouped bars)."""
     c = result.contributions
-    keys = (("annual_failure_probability", "AFP"), ("expected_annual_damage", "EAD"), ("annualized_life_loss", "ALL"))
+    keys = tuple((k, output_label(k).short) for k in HEADLINE_KEYS)
     labels = band_labels(c["annual_failure_probability"]["bands"])
     x = np.arange(len(labels))
     wbar = 0.26
@@ -626,7 +603,11 @@ def plot_sensitivity(sensitivity, path_stem=None, *, panel_notes=None, top=12):
     outs = [k for k, v in (sensitivity or {}).items() if isinstance(v, dict) and v]
     if not outs:
         return None
-    short = {"annual_failure_probability": "AFP", "expected_annual_damage": "EAD", "annualized_life_loss": "ALL"}
+    def short(o):
+        try:
+            return output_label(o).short
+        except KeyError:
+            return o.replace("_", " ")
 
     def col(d, factors, k):
         return np.array([np.nan if d[f].get(k) is None else d[f][k] for f in factors], float)
@@ -653,7 +634,7 @@ def plot_sensitivity(sensitivity, path_stem=None, *, panel_notes=None, top=12):
             ax.set_xlim(min(-0.05, float(lo) - 0.02), 1.05)
             ax.set_xlabel("Sobol index [-]")
             note = (panel_notes or {}).get(o)
-            ax.set_title(_t(short.get(o, o.replace("_", " ")) + (f" ({note})" if note else "")), fontsize=9)
+            ax.set_title(_t(short(o) + (f" ({note})" if note else "")), fontsize=9)
             ax.grid(True, axis="x", color=STYLE["grid"], lw=0.6)
         axes[0][0].legend(loc="lower right", frameon=False)
         fig.suptitle("What drives the risk: Sobol indices, ranked by total effect (bars: confidence intervals)",

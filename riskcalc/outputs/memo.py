@@ -6,10 +6,12 @@ a run) and :func:`rebuild_memo` (``riskcalc memo OUTDIR``) give the same text.
 :func:`write_memo` first adds the one table the memo needs that the run does
 not already write, ``tables/tolerable_risk.csv`` (each reference line against
 the predictive and mode results), and ``memo_sections.json`` when other
-stages contribute sections (``result.extras["memo_sections"]``).
+stages contribute sections (``result.extras["memo_sections"]``: :class:`Section`
+objects, stored as their blocks and rendered by the same code as the rest).
 
 Both formats come from one list of sections, so the Markdown and the HTML
-hold the same numbers. The HTML is one self-contained file: figures are
+hold the same numbers. Words, units and number formats come from
+:mod:`riskcalc.outputs.labels`. The HTML is one self-contained file: figures are
 embedded as base64 ``data:`` URIs, the stylesheet is inline, there are no
 scripts and no network requests (a Content-Security-Policy forbids them), and
 every string that came from a user file is escaped.
@@ -26,6 +28,7 @@ from __future__ import annotations
 
 import base64
 import csv
+import dataclasses
 import html
 import json
 import math
@@ -36,15 +39,11 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from .labels import (CAUTION, HEADLINE_KEYS, fmt_aep, fmt_index, fmt_num, fmt_percent,
+                     fmt_quantity, fmt_ratio, fmt_return_period, output_label, unit_text)
 
-__all__ = ["write_memo", "rebuild_memo", "tolerable_risk_table", "render_memo", "HEADLINE_ROWS"]
-
-#: Headline rows: summary key, label, unit text (``{cur}`` is the currency), number format.
-HEADLINE_ROWS = (
-    ("annual_failure_probability", "Annual failure probability (AFP)", "1/yr", "num"),
-    ("expected_annual_damage", "Expected annual damage (EAD)", "{cur}/yr", "money"),
-    ("annualized_life_loss", "Annualized life loss (ALL)", "lives/yr", "num"),
-)
+__all__ = ["write_memo", "rebuild_memo", "tolerable_risk_table", "render_memo", "Block", "Section",
+           "blocks_markdown", "blocks_html", "section_to_dict", "section_from_dict"]
 
 #: Captions of the run figures, by file stem (in memo order).
 FIGURE_CAPTIONS = {
@@ -66,62 +65,20 @@ FIGURE_CAPTIONS = {
 MEMO_SECTIONS_FILE = "memo_sections.json"
 TOLERABLE_TABLE = "tolerable_risk.csv"
 
-CAUTION = ("These results are screening support for qualified, licensed engineers; they support, and never "
-           "replace, their judgment and the governing codes. The tolerable-risk lines shown are defaults from "
-           "published guidance (or the lines given in the scenario): the governing agency's current policy and "
-           "local codes decide which apply. The results are only as good as the inputs and the failure modes "
-           "considered.")
-
-
-# --------------------------------------------------------------------------
-# Formatting
-# --------------------------------------------------------------------------
-def fmt_num(v) -> str:
-    """Three significant figures (``0.00873``, ``1.12e-05``); ``n/a`` for None or NaN."""
-    if v is None or not math.isfinite(float(v)):
-        return "n/a"
-    return f"{float(v):.3g}"
-
-
-def fmt_money(v) -> str:
-    """Whole currency units with thousands separators (``1,227,087``)."""
-    if v is None or not math.isfinite(float(v)):
-        return "n/a"
-    v = float(v)
-    return f"{v:,.0f}" if abs(v) >= 100 else f"{v:.3g}"
-
-
-def _fmt(v, kind):
-    return fmt_money(v) if kind == "money" else fmt_num(v)
-
-
-def _ratio(v) -> str:
-    if v is None or not math.isfinite(float(v)):
-        return "n/a"
-    return f"{float(v):.2f}"
-
-
-def _once_in(p) -> str:
-    return f"{1 / p:,.0f}" if p and p > 0 else "n/a"
-
-
-def _pct(p) -> str:
-    return f"{100 * p:.0f} %"
-
-
-def _aep_text(p) -> str:
-    return f"{100 * p:g} %" if p >= 1e-3 else f"{p:g}"
-
-
-_UNITS = {"m3s": "m³/s", "cfs": "ft³/s", "m": "m", "ft": "ft"}
-
 
 # --------------------------------------------------------------------------
 # The document: sections of blocks, rendered to Markdown and HTML
 # --------------------------------------------------------------------------
 @dataclass(frozen=True)
 class Block:
-    """One block of the memo. ``kind``: p, caution, table, list, figure, eq, raw."""
+    """One block of a memo section.
+
+    ``kind`` is one of :data:`BLOCK_KINDS`: ``p`` (a paragraph of ``text``), ``caution`` (``text`` set off as a
+    caution), ``table`` (``header`` and ``rows`` of strings; ``css`` its class in HTML), ``list`` (``items``),
+    ``figure`` (file stem ``figure`` under ``figures/``, caption ``text``; ``number`` and the base64 PNG
+    ``image`` are filled in when the memo is assembled) and ``eq`` (preformatted ``text``). Every string is
+    plain text: the renderers escape it for Markdown and for HTML.
+    """
 
     kind: str
     text: str = ""
@@ -131,16 +88,93 @@ class Block:
     css: str = ""
     figure: str = ""
     number: int = 0
-    markdown: str = ""
-    html: str = ""
+    image: str = ""
+
+    def __post_init__(self):
+        if self.kind not in BLOCK_KINDS:
+            raise ValueError(f"unknown block kind {self.kind!r}; expected one of {', '.join(BLOCK_KINDS)}")
+
+
+#: The kinds of :class:`Block`.
+BLOCK_KINDS = ("p", "caution", "table", "list", "figure", "eq")
 
 
 @dataclass(frozen=True)
 class Section:
+    """A titled section of blocks; ``new_page``: the printed memo starts it on a new page."""
+
     title: str
     anchor: str
     blocks: tuple = field(default_factory=tuple)
     new_page: bool = True
+
+    @property
+    def figures(self) -> list[str]:
+        """File stems of the section's figures."""
+        return [b.figure for b in self.blocks if b.kind == "figure"]
+
+
+def section_to_dict(s: Section) -> dict:
+    """A section as plain JSON types (``memo_sections.json``); figure numbers and images are left out."""
+    blocks = []
+    for b in s.blocks:
+        d = {"kind": b.kind}
+        for name in ("text", "css", "figure"):
+            if getattr(b, name):
+                d[name] = getattr(b, name)
+        if b.header:
+            d["header"] = [str(c) for c in b.header]
+        if b.rows:
+            d["rows"] = [[str(c) for c in r] for r in b.rows]
+        if b.items:
+            d["items"] = [str(i) for i in b.items]
+        blocks.append(d)
+    return {"title": s.title, "anchor": s.anchor, "new_page": s.new_page, "blocks": blocks}
+
+
+def section_from_dict(d, path=None) -> Section:
+    """The :class:`Section` of :func:`section_to_dict`.
+
+    Raises
+    ------
+    InputError
+        When ``d`` is not a section (``path`` names the file in the message).
+    """
+    if not isinstance(d, dict) or not isinstance(d.get("blocks"), list):
+        raise InputError("holds a memo section without blocks; expected the memo_sections.json of this riskcalc "
+                         "version (rerun the scenario)", path)
+    blocks = []
+    for k, b in enumerate(d["blocks"], 1):
+        if not isinstance(b, dict) or b.get("kind") not in BLOCK_KINDS:
+            kind = b.get("kind") if isinstance(b, dict) else b
+            raise InputError(f"block {k} of section {d.get('title', '')!r} has kind {kind!r}; expected one of "
+                             f"{', '.join(BLOCK_KINDS)}", path)
+        blocks.append(Block(b["kind"], text=str(b.get("text", "")), css=str(b.get("css", "")),
+                            figure=str(b.get("figure", "")), header=tuple(str(c) for c in b.get("header", ())),
+                            rows=tuple(tuple(str(c) for c in r) for r in b.get("rows", ())),
+                            items=tuple(str(i) for i in b.get("items", ()))))
+    title = str(d.get("title", ""))
+    return Section(title, str(d.get("anchor", "")) or _slug(title), tuple(blocks), bool(d.get("new_page", True)))
+
+
+def number_figures(blocks, images: dict, start: int = 1) -> tuple[list, int]:
+    """Figure blocks numbered from ``start`` with their image attached; figures without an image are left out.
+
+    Returns
+    -------
+    blocks : list of Block
+    next : int
+        The number of the next figure.
+    """
+    out = []
+    for b in blocks:
+        if b.kind == "figure":
+            if b.figure not in images:
+                continue
+            b = dataclasses.replace(b, number=start, image=images[b.figure])
+            start += 1
+        out.append(b)
+    return out, start
 
 
 def _md_escape(s) -> str:
@@ -152,7 +186,7 @@ def _h(s) -> str:
     return html.escape(str(s), quote=True)
 
 
-_NUMBER = re.compile(r"^[-+]?[\d,]*\.?\d+(e[-+]?\d+)?( ± [\d.]+)?$|^n/a$")
+_NUMBER = re.compile(r"^[-+]?[\d,]*\.?\d+(e[-+]?\d+)?( ± [\d.]+)?$|^n/a$|^−?∞$")
 
 
 def _numeric_columns(b: Block) -> list[bool]:
@@ -162,6 +196,10 @@ def _numeric_columns(b: Block) -> list[bool]:
         cells = [str(r[j]) for r in b.rows if j < len(r) and str(r[j]).strip()]
         out.append(j > 0 and bool(cells) and all(_NUMBER.match(c) for c in cells))
     return out
+
+
+def _caption(b: Block) -> str:
+    return f"Figure {b.number}. {b.text}" if b.number else b.text
 
 
 def _md_block(b: Block) -> str:
@@ -179,15 +217,11 @@ def _md_block(b: Block) -> str:
         sep = "| " + " | ".join("---:" if num[j] else "---" for j in range(len(b.header))) + " |"
         rows = ["| " + " | ".join(_md_escape(c) for c in r) + " |" for r in b.rows]
         return "\n".join([head, sep, *rows])
-    if b.kind == "figure":
-        cap = f"Figure {b.number}. {b.text}"
-        return f"![{_md_escape(cap)}](figures/{b.figure}.png)\n\n*{_md_escape(cap)}* (also `figures/{b.figure}.svg`)"
-    if b.kind == "raw":
-        return b.markdown.strip()
-    raise ValueError(f"unknown block kind {b.kind!r}")
+    cap = _md_escape(_caption(b))  # figure
+    return f"![{cap}](figures/{b.figure}.png)\n\n*{cap}* (also `figures/{b.figure}.svg`)"
 
 
-def _html_block(b: Block, images: dict) -> str:
+def _html_block(b: Block) -> str:
     if b.kind == "p":
         return f"<p>{_h(b.text)}</p>"
     if b.kind == "caution":
@@ -203,15 +237,21 @@ def _html_block(b: Block, images: dict) -> str:
         body = "\n".join("<tr>" + "".join(f"<td{k}>{_h(c)}</td>" for k, c in zip(cls, r)) + "</tr>"
                          for r in b.rows)
         return f'<table class="{_h(b.css)}">\n<thead><tr>{head}</tr></thead>\n<tbody>\n{body}\n</tbody>\n</table>'
-    if b.kind == "figure":
-        cap = f"Figure {b.number}. {b.text}"
-        data = images.get(b.figure)
-        img = (f'<img src="data:image/png;base64,{data}" alt="{_h(cap)}">' if data else
-               f'<p class="missing">figure file {_h(b.figure)}.png is missing</p>')
-        return f'<figure id="fig-{_h(b.figure)}">\n{img}\n<figcaption>{_h(cap)}</figcaption>\n</figure>'
-    if b.kind == "raw":
-        return b.html.strip()
-    raise ValueError(f"unknown block kind {b.kind!r}")
+    cap = _caption(b)  # figure
+    # embedded in the memo; elsewhere (comparison.md's fragment) a link to the file beside it, as in Markdown
+    src = f"data:image/png;base64,{b.image}" if b.image else f"figures/{_h(b.figure)}.png"
+    img = f'<img src="{src}" alt="{_h(cap)}">'
+    return f'<figure id="fig-{_h(b.figure)}">\n{img}\n<figcaption>{_h(cap)}</figcaption>\n</figure>'
+
+
+def blocks_markdown(blocks) -> str:
+    """Markdown of a sequence of blocks, separated by blank lines."""
+    return "\n\n".join(_md_block(b) for b in blocks)
+
+
+def blocks_html(blocks) -> str:
+    """HTML fragment of a sequence of blocks (every string escaped; images as ``data:`` URIs)."""
+    return "\n".join(_html_block(b) for b in blocks)
 
 
 CSS = """
@@ -232,13 +272,14 @@ td.n { white-space: nowrap; }
 th { background: #eef1f5; border-bottom: 2px solid #8a97a8; }
 table.hash td:last-child { font-family: "DejaVu Sans Mono", monospace; font-size: 11px; word-break: break-all; }
 table.headline td:first-child { font-weight: bold; min-width: 12em; }
+table.alternatives { font-size: 11.5px; }
+table.alternatives th, table.alternatives td { padding: 4px 4px; }
 figure { margin: 18px 0 22px; }
 figure img { width: 100%; height: auto; border: 1px solid #e3e3e3; }
 figcaption { font-size: 13px; color: var(--muted); margin-top: 4px; }
 pre.eq { background: #f6f7f9; border: 1px solid #e1e4e8; padding: 10px 12px; font-size: 13px; white-space: pre-wrap; }
 nav.toc ol { columns: 2; font-size: 14px; }
 nav.toc a { color: var(--accent); text-decoration: none; }
-.missing { color: var(--warn); }
 footer { margin-top: 40px; font-size: 12px; color: var(--muted); border-top: 1px solid var(--rule); padding-top: 8px; }
 @page { size: A4; margin: 16mm 14mm 18mm; }
 @media print {
@@ -254,29 +295,22 @@ footer { margin-top: 40px; font-size: 12px; color: var(--muted); border-top: 1px
 
 
 def render_memo(title: str, subtitle: str, sections) -> tuple[str, str]:
-    """Markdown and HTML text of a memo from its sections (``images``: stem -> base64 PNG in each figure block).
+    """Markdown and HTML text of a memo from its sections (figures numbered, images attached).
 
     Returns
     -------
     markdown, html : str
     """
-    images = {}
-    for s in sections:
-        for b in s.blocks:
-            if b.kind == "figure" and b.html:
-                images[b.figure] = b.html
     md = [f"# {_md_escape(title)}", "", _md_escape(subtitle), ""]
-    md += ["Contents: " + " · ".join(f"{k}. {s.title}" for k, s in enumerate(sections, 1)), ""]
+    md += ["Contents: " + " · ".join(f"{k}. {_md_escape(s.title)}" for k, s in enumerate(sections, 1)), ""]
     for k, s in enumerate(sections, 1):
-        md += [f"## {k}. {_md_escape(s.title)}", ""]
-        for b in s.blocks:
-            md += [_md_block(b), ""]
-    toc = "\n".join(f'<li><a href="#{s.anchor}">{_h(s.title)}</a></li>' for s in sections)
+        md += [f"## {k}. {_md_escape(s.title)}", "", blocks_markdown(s.blocks), ""]
+    toc = "\n".join(f'<li><a href="#{_h(s.anchor)}">{_h(s.title)}</a></li>' for s in sections)
     body = []
     for k, s in enumerate(sections, 1):
         cls = "page" if (s.new_page and k > 1) else "first"
-        body.append(f'<section id="{s.anchor}" class="{cls}">\n<h2>{k}. {_h(s.title)}</h2>\n' +
-                    "\n".join(_html_block(b, images) for b in s.blocks) + "\n</section>")
+        body.append(f'<section id="{_h(s.anchor)}" class="{cls}">\n<h2>{k}. {_h(s.title)}</h2>\n' +
+                    blocks_html(s.blocks) + "\n</section>")
     page = f"""<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -380,7 +414,7 @@ def write_memo(result, outdir) -> list[Path]:
     """Write ``memo.md`` and ``memo.html`` for a run whose summary, tables and figures are in ``outdir``.
 
     Adds ``tables/tolerable_risk.csv`` (and ``memo_sections.json`` when
-    ``result.extras["memo_sections"]`` holds sections), then renders the memo
+    ``result.extras["memo_sections"]`` holds :class:`Section` objects), then renders the memo
     from the files with :func:`rebuild_memo`, so a later ``riskcalc memo``
     gives the same text.
 
@@ -396,10 +430,8 @@ def write_memo(result, outdir) -> list[Path]:
     write_csv(outdir / "tables" / TOLERABLE_TABLE, tolerable_risk_table(result))
     extra = list((getattr(result, "extras", None) or {}).get("memo_sections", []) or [])
     if extra:
-        clean = [{"title": str(s.get("title", "")), "markdown": str(s.get("markdown", "")),
-                  "html": str(s.get("html", "")), "figures": [str(f) for f in s.get("figures", []) or []]}
-                 for s in extra]
-        write_json(outdir / MEMO_SECTIONS_FILE, clean)
+        write_json(outdir / MEMO_SECTIONS_FILE, [section_to_dict(s if isinstance(s, Section) else
+                                                                 section_from_dict(s)) for s in extra])
     return rebuild_memo(outdir)
 
 
@@ -444,7 +476,7 @@ def rebuild_memo(outdir) -> list[Path]:
         summary = json.loads(sp.read_text(encoding="utf-8"))
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise InputError(f"is not valid JSON ({exc})", sp) from None
-    for key, *_ in HEADLINE_ROWS:
+    for key in HEADLINE_KEYS:
         if not isinstance(summary.get(key), dict):
             raise InputError("missing headline figure; expected a summary.json written by `riskcalc run`", sp,
                              key=key)
@@ -452,9 +484,12 @@ def rebuild_memo(outdir) -> list[Path]:
     xp = outdir / MEMO_SECTIONS_FILE
     if xp.exists():
         try:
-            extra = json.loads(xp.read_text(encoding="utf-8"))
+            raw = json.loads(xp.read_text(encoding="utf-8"))
         except json.JSONDecodeError as exc:
             raise InputError(f"is not valid JSON ({exc})", xp) from None
+        if not isinstance(raw, list):
+            raise InputError("expected a list of memo sections", xp)
+        extra = [section_from_dict(d, xp) for d in raw]
     figdir = outdir / "figures"
     images = {}
     if figdir.is_dir():
@@ -474,29 +509,27 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     prov = summary.get("provenance", {}) or {}
     settings = prov.get("settings", {}) or {}
     units = summary.get("units", {}) or {}
-    cur = str(units.get("currency", "")).upper()
+    cur = units.get("currency", "")
     var = settings.get("hazard_variable", "discharge")
-    var_unit = _UNITS.get(units.get("discharge" if var == "discharge" else "stage"), "")
-    stage_unit = _UNITS.get(units.get("stage"), "")
+    var_unit = unit_text(units.get("discharge" if var == "discharge" else "stage"))
+    stage_unit = unit_text(units.get("stage"))
     title = f"Decision memo: {summary.get('title', 'untitled scenario')}"
     subtitle = (f"Run of {prov.get('date', 'unknown date')} with riskcalc {prov.get('riskcalc_version', '?')}; "
                 f"scenario file {prov.get('scenario', '?')}; {settings.get('realizations', '?')} hazard realizations.")
     sections = []
-    figure_no = [0]
-    extra_figs = {Path(f).name for s in extra for f in s.get("figures", [])}
+    extra_figs = {f for s in extra for f in s.figures}
 
-    def fig(stem, caption):
-        figure_no[0] += 1
-        return Block("figure", text=caption, figure=stem, number=figure_no[0], html=images.get(stem, ""))
+    def fig(stem, caption):  # numbered, with its image, once every section is in place
+        return Block("figure", text=caption, figure=stem)
 
     # 1. headline ------------------------------------------------------------
     rows = []
-    for key, label, unit, kind in HEADLINE_ROWS:
-        h = summary[key]
+    for key in HEADLINE_KEYS:
+        o, h = output_label(key), summary[key]
         e = h.get("ensemble", {}) or {}
-        rows.append((f"{label} [{unit.format(cur=cur)}]", _fmt(h.get("predictive"), kind), _fmt(h.get("mode"), kind),
-                     _fmt(h.get("median_curve"), kind), _fmt(e.get("p05"), kind), _fmt(e.get("p50"), kind),
-                     _fmt(e.get("p95"), kind), _ratio(h.get("ratio_predictive_to_mode"))))
+        rows.append((o.text(cur), *(o.fmt(v) for v in (h.get("predictive"), h.get("mode"), h.get("median_curve"),
+                                                       e.get("p05"), e.get("p50"), e.get("p95"))),
+                     fmt_ratio(h.get("ratio_predictive_to_mode"))))
     blocks = [Block("caution", CAUTION),
               Block("table", header=("measure", "predictive", "mode curve", "median curve", "ensemble 5\u00a0%",
                                      "ensemble 50\u00a0%", "ensemble 95\u00a0%", "predictive / mode"),
@@ -510,15 +543,16 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
         word = ("understates" if r_afp > 1.05 else "overstates" if r_afp < 0.95 else "matches, within 5 %,")
         blocks.append(Block("p", (
             f"What the ratio means: the single most likely (mode) curve {word} the annual failure probability "
-            f"(predictive / mode = {_ratio(r_afp)}). A crest set at the mode curve's {_aep_text(p_d)} stage "
-            f"({m.get('stage', float('nan')):.2f} {stage_unit}) is exceeded on average once in "
-            f"{_once_in(m['aep_on_predictive'])} years on the predictive curve, not once in {_once_in(p_d)}: "
-            f"the chance of at least one exceedance in {years} years is "
-            f"{_pct(m.get('chance_in_years_predictive', 0))}, not {_pct(m.get('chance_in_years_nominal', 0))}.")))
+            f"(predictive / mode = {fmt_ratio(r_afp)}). A crest set at the mode curve's {fmt_aep(p_d)} stage "
+            f"({fmt_quantity(m.get('stage'), 'stage')} {stage_unit}) is exceeded on average about once in "
+            f"{fmt_return_period(m['aep_on_predictive'])} years on the predictive curve, not once in "
+            f"{fmt_return_period(p_d)}: the chance of at least one exceedance in {years} years is "
+            f"{fmt_percent(m.get('chance_in_years_predictive', 0))}, not "
+            f"{fmt_percent(m.get('chance_in_years_nominal', 0))}.")))
     r_h = afp.get("ratio_hazard_only")
     if r_h is not None and r_afp is not None and abs(r_h - r_afp) > 1e-9 * abs(r_afp):
-        blocks.append(Block("p", f"Of the AFP ratio {_ratio(r_afp)}, the hazard ensemble alone (nominal response) "
-                                 f"gives {_ratio(r_h)}; the rest comes from the sampled uncertainty of the response "
+        blocks.append(Block("p", f"Of the AFP ratio {fmt_ratio(r_afp)}, the hazard ensemble alone (nominal response) "
+                                 f"gives {fmt_ratio(r_h)}; the rest comes from the sampled uncertainty of the response "
                                  "and consequences, which the mode-curve analysis leaves out as well."))
     blocks.append(Block("p", "Linearity: the predictive result is the mean of the per-realization results (the "
                              "weighted mean over the ensemble), which is why the risk is integrated against the "
@@ -526,7 +560,7 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     se = afp.get("mc_standard_error")
     if se is not None and afp.get("predictive"):
         blocks.append(Block("p", f"Monte Carlo standard error of the predictive AFP: {fmt_num(se)} per year "
-                                 f"({100 * se / afp['predictive']:.1f} % of the value)."))
+                                 f"({fmt_percent(se / afp['predictive'], decimals=1)} of the value)."))
     sections.append(Section("Headline results", "headline", tuple(blocks), new_page=False))
 
     # 2. figures -------------------------------------------------------------
@@ -537,8 +571,8 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
         if stem in images and stem not in extra_figs:
             cap = FIGURE_CAPTIONS[stem]
             if stem == "aep_at_design_discharge" and m.get(var) is not None:
-                cap += (f" Here {var} {m[var]:,.0f} {var_unit}: mean AEP {fmt_num(m.get('aep_on_predictive'))} "
-                        f"against {p_d:g} on the mode curve.")
+                cap += (f" Here {var} {fmt_quantity(m[var], var)} {var_unit}: mean AEP "
+                        f"{fmt_num(m.get('aep_on_predictive'))} against {fmt_num(p_d)} on the mode curve.")
             fblocks.append(fig(stem, cap))
     for stem in sorted(images):
         if stem not in FIGURE_STEMS and stem not in extra_figs:
@@ -562,22 +596,22 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
             srows = []
             for factor, s in d.items():
                 s = s or {}
-                srows.append((factor, _pm(s.get("S1"), s.get("S1_conf")), _pm(s.get("ST"), s.get("ST_conf"))))
-            sblocks.append(Block("p", f"Output: {str(out_key).replace('_', ' ')}"))
+                srows.append((factor, fmt_index(s.get("S1"), s.get("S1_conf")),
+                              fmt_index(s.get("ST"), s.get("ST_conf"))))
+            try:
+                name = output_label(str(out_key)).text(cur, unit=False)
+            except KeyError:
+                name = str(out_key).replace("_", " ")
+            sblocks.append(Block("p", f"Output: {name}"))
             sblocks.append(Block("table", header=("factor", "first order S1", "total ST"), rows=tuple(srows)))
         if "sensitivity_indices" in images:
             sblocks.append(fig("sensitivity_indices", FIGURE_CAPTIONS["sensitivity_indices"]))
         sections.append(Section("Sensitivity", "sensitivity", tuple(sblocks)))
 
     # 5. sections from other stages (alternatives, economics, ...) ------------------
-    for k, s in enumerate(extra):
-        bl = [Block("raw", markdown=s.get("markdown", ""), html=s.get("html", ""))]
-        for f in s.get("figures", []):
-            stem = Path(f).name
-            if stem in images:
-                bl.append(fig(stem, f"{s.get('title', '')}: {stem.replace('_', ' ')}."))
-        sections.append(Section(str(s.get("title", "")) or f"Section {k + 1}",
-                                f"extra-{k + 1}-{_slug(s.get('title', ''))}", tuple(bl)))
+    for k, s in enumerate(extra, 1):
+        sections.append(dataclasses.replace(s, title=s.title or f"Section {k}",
+                                            anchor=f"extra-{k}-{_slug(s.anchor or s.title)}"))
 
     # 6. warnings ----------------------------------------------------------------
     warns = list(summary.get("warnings", []) or [])
@@ -599,17 +633,17 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
         Block("table", header=("input file", "SHA-256"), rows=hashes, css="text hash"))))
 
     # 8. cautions -------------------------------------------------------------------
-    sections.append(Section("Cautions and limitations", "cautions", tuple(_caution_blocks(summary, stage_unit))))
+    sections.append(Section("Cautions and limitations", "cautions", tuple(_caution_blocks(summary))))
 
     # 9. methods --------------------------------------------------------------------
     sections.append(Section("Methods appendix", "methods", tuple(_methods_blocks(bool(sens)))))
+
+    # figures numbered through the whole memo
+    n = 1
+    for i, sec in enumerate(sections):
+        blocks, n = number_figures(sec.blocks, images, n)
+        sections[i] = dataclasses.replace(sec, blocks=tuple(blocks))
     return title, subtitle, sections
-
-
-def _pm(v, conf) -> str:
-    if v is None:
-        return "n/a"
-    return f"{v:.2f} ± {conf:.2f}" if conf is not None else f"{v:.2f}"
 
 
 def _setting(v) -> str:
@@ -649,10 +683,10 @@ def _tolerable_blocks(tol: list[dict]) -> list[Block]:
             if rr and rr.get("exceeds") == "yes":
                 n_exceed[c] += 1
         nl = _float(p.get("n_lives"))
-        where = f" at N = {nl:.3g}" if nl is not None else ""
+        where = f" at N = {fmt_num(nl)}" if nl is not None else ""
         rows.append((f"{name} {ref[p['source']]}", p["definition"], what + where, fmt_num(_float(p["computed_per_yr"])),
-                     fmt_num(_float(p["limit_per_yr"])), _ratio(_float(p["ratio"])),
-                     _ratio(_float(mo.get("ratio"))) if mo else "n/a"))
+                     fmt_num(_float(p["limit_per_yr"])), fmt_ratio(_float(p["ratio"])),
+                     fmt_ratio(_float(mo.get("ratio"))) if mo else "n/a"))
     blocks.append(Block("table", header=("reference line", "definition", "compared with", "predictive [1/yr]",
                                          "line [1/yr]", "ratio (predictive)", "ratio (mode curve)"),
                         rows=tuple(rows), css="tolerable"))
@@ -666,7 +700,8 @@ def _tolerable_blocks(tol: list[dict]) -> list[Block]:
     return blocks
 
 
-def _caution_blocks(summary: dict, stage_unit: str) -> list[Block]:
+def _caution_blocks(summary: dict) -> list[Block]:
+    discharge_unit = unit_text((summary.get("units", {}) or {}).get("discharge"))
     modes = list((summary.get("failure_modes") or {}).keys())
     ext = summary.get("extrapolation", {}) or {}
     tr = summary.get("truncation", {}) or {}
@@ -684,8 +719,9 @@ def _caution_blocks(summary: dict, stage_unit: str) -> list[Block]:
         "Life-loss estimates are uncertain by a factor of several even with good data; treat ALL and the F-N "
         "curve as orders of magnitude.",
         (f"Stage above the rating (or routing) table is extrapolated: "
-         f"{_pct_small(ext.get('share_of_afp_beyond_rating_table'))} of the AFP comes from floods above its top "
-         f"({fmt_money(ext['rating_table_top'])})." if ext.get("rating_table_top") is not None else
+         f"{fmt_percent(ext.get('share_of_afp_beyond_rating_table'), sig=2)} of the AFP comes from floods above "
+         f"its top "
+         f"({fmt_quantity(ext['rating_table_top'])} {discharge_unit})." if ext.get("rating_table_top") is not None else
          "The hazard is given as peak stage, so no rating curve is used; the stage-frequency ensemble carries "
          "any rating uncertainty itself."),
         f"The hazard ensemble carries the uncertainty of the frequency analysis only; change over time (climate, "
@@ -693,16 +729,8 @@ def _caution_blocks(summary: dict, stage_unit: str) -> list[Block]:
         f"grid is {fmt_num(tr.get('aep_above_grid'))} and is counted in the top cell, not dropped.",
         "Figures and tables are only as good as the inputs: the frequency ensemble, the rating curve, the "
         "fragility curves and the consequence curves.",
-        "The results support, and never replace, the judgment of qualified, licensed engineers and the governing "
-        "codes; the governing agency's current policy decides which tolerable-risk lines apply.",
     ]
-    return [Block("list", items=tuple(items))]
-
-
-def _pct_small(v) -> str:
-    if v is None:
-        return "n/a"
-    return f"{100 * v:.2g} %"
+    return [Block("list", items=tuple(items)), Block("caution", CAUTION)]
 
 
 def _methods_blocks(with_sensitivity: bool) -> list[Block]:

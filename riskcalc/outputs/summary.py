@@ -4,13 +4,10 @@ from __future__ import annotations
 
 from ..io import to_plain
 from ..risk.records import HEADLINES
+from .labels import CAUTION
 
-__all__ = ["CAUTION_TEXT", "summary_dict"]
+__all__ = ["summary_dict"]
 
-CAUTION_TEXT = ("Screening support for qualified, licensed engineers; it does not replace their judgment. "
-                "Tolerable-risk lines are defaults from published guidance: the governing agency's current "
-                "policy and local codes decide. Results are only as good as the inputs and the failure modes "
-                "considered.")
 
 
 def summary_dict(result) -> dict:
@@ -50,5 +47,5 @@ def summary_dict(result) -> dict:
     out["title"] = r.scenario.title
     out["description"] = r.scenario.description
     out["units"] = r.scenario.units
-    out["caution"] = CAUTION_TEXT
+    out["caution"] = CAUTION
     return to_plain(out)

@@ -102,7 +102,7 @@ class SensitivityReport:
 
     def as_json(self) -> dict:
         """The sensitivity.json structure (non-finite numbers as null)."""
-        from ..outputs.summary import CAUTION_TEXT
+        from ..outputs.labels import CAUTION as CAUTION_TEXT
 
         s = self.settings
         out = {

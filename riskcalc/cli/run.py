@@ -1,0 +1,74 @@
+"""`riskcalc run`: the whole risk chain on a scenario, and the headline table it prints."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from ..outputs.labels import (HEADLINE_KEYS, caution_line, fmt_aep, fmt_num, fmt_percent, fmt_quantity, fmt_ratio,
+                              fmt_return_period, output_label, unit_text)
+
+
+def headline_lines(summary: dict) -> list[str]:
+    """The headline table printed at the end of a run, from the summary.json structure."""
+    cur = summary["units"]["currency"]
+    outs = [output_label(k) for k in HEADLINE_KEYS]
+    w = max(len(o.text(cur)) for o in outs) + 2
+    lines = [f"{'':{w}}{'predictive':>13}{'mode':>13}{'median':>13}{'5-95 % of ensemble':>26}{'pred/mode':>11}"]
+    for o in outs:
+        h = summary[o.key]
+        e = h["ensemble"]
+        band = f"{o.fmt(e['p05'])} to {o.fmt(e['p95'])}"
+        lines.append(f"{o.text(cur):{w}}{o.fmt(h['predictive']):>13}{o.fmt(h['mode']):>13}"
+                     f"{o.fmt(h['median_curve']):>13}{band:>26}{fmt_ratio(h['ratio_predictive_to_mode']):>11}")
+    h = summary["annual_failure_probability"]
+    r, r_h = h["ratio_predictive_to_mode"], h.get("ratio_hazard_only")
+    if r_h is not None and r is not None and abs(r_h - r) > 1e-9 * abs(r):
+        lines.append(f"AFP pred/mode with the hazard ensemble alone (nominal response): {fmt_ratio(r_h)}")
+    c = summary["mode_understatement"]["crest_check"]
+    m = c["mode"]
+    p = m["aep_on_predictive"]
+    if p:
+        lines.append(
+            f"A crest set at the mode curve's {fmt_aep(c['design_aep'])} stage ({fmt_quantity(m['stage'], 'stage')} "
+            f"{unit_text(summary['units'].get('stage'))}) would be exceeded with AEP {fmt_num(p)} on the predictive "
+            f"curve (about once in {fmt_return_period(p)} years, not once in {fmt_return_period(c['design_aep'])}); "
+            f"chance of at least one exceedance in {c['years']} years: "
+            f"{fmt_percent(m['chance_in_years_predictive'])}, not {fmt_percent(m['chance_in_years_nominal'])}.")
+    return lines
+
+
+def run(
+    scenario: Path = typer.Argument(..., help="Scenario file (.toml)."),
+    out: Path = typer.Option(..., "--out", "-o", help="Output directory (created; replaced only with --overwrite)."),
+    overwrite: bool = typer.Option(False, help="Replace a non-empty output directory."),
+    workers: int = typer.Option(0, help="Threads for the Monte Carlo (0: the machine's cores, at most 4)."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar; print only the output path."),
+):
+    """Run the whole risk chain on a scenario: AFP, EAD, ALL, F-N, mean versus mode.
+
+    Example:
+
+        riskcalc run scenarios/amberlow_levee/scenario.toml --out out/amberlow
+
+    writes out/amberlow/summary.json, tables/*.csv, figures/*.png|svg and the memo, and prints the
+    headline table with the caution. A scenario whose [sensitivity] table says enabled = true also gets
+    the Sobol indices (as `riskcalc sensitivity`); one with [[alternatives]] and [economics] also gets
+    the comparison (as `riskcalc compare`) and its memo section.
+    """
+    from ..progress import progress_bar
+    from ..workflows import run_scenario
+
+    with progress_bar("Monte Carlo chunks", enabled=not quiet) as update:
+        result = run_scenario(scenario, out, overwrite=overwrite, workers=workers or None, progress=update)
+    s = result.summary()
+    if not quiet:
+        typer.echo(s["title"])
+        for line in headline_lines(s):
+            typer.echo(line)
+        for w in s["warnings"]:
+            typer.echo(f"warning: {w}")
+        typer.echo(caution_line())
+    memo = Path(out) / "memo.html"
+    typer.echo(f"results: {out}/" + (f"  memo: {memo}" if memo.exists() else ""))
