@@ -241,7 +241,7 @@ CASES = [
      r"scenario\.toml, key 'failure_modes\[2\]\.name': failure-mode name 'breach' is used twice .*; names must be "
      r"unique"),
     ("negative-shift-sd", sub('name = "breach"', 'name = "breach"\nshift_sd = -1.0'),
-     r"scenario\.toml, key 'failure_modes\[1\]\.shift_sd': expected a standard deviation >= 0"),
+     r"scenario\.toml, key 'failure_modes\[1\]\.shift_sd': -1\.0 is negative; expected a standard deviation >= 0"),
     # --- consequence tables ----------------------------------------------------------------------
     ("cons-negative-damage", put("consequences.csv", "stage_m,damage_breach_usd\n1,0\n2,-5\n"),
      r"consequences\.csv, row 3, column 'damage_breach_usd': -5 must not be negative"),
@@ -297,7 +297,7 @@ CASES = [
     ("scenario-too-few-points", append("[grid]\npoints = 3\n"),
      r"scenario\.toml, key 'grid\.points': 3 is outside 50 to 200000"),
     ("scenario-bad-units", sub('discharge = "m3s"', 'discharge = "gpm"'),
-     r"scenario\.toml, key 'units\.discharge': 'gpm' is not one of m3s, cfs"),
+     r"scenario\.toml, key 'units\.discharge': 'gpm' is not m3s or cfs"),
     ("scenario-negative-seed", sub("seed = 42", "seed = -1"),
      r"scenario\.toml, key 'seed': -1 is negative; expected an integer >= 0"),
     ("scenario-mode-unknown-parameter", append("[hazard.mode]\nmean = 2.5\nsd = 0.25\nskew = 0.1\nshape = 1.0\n"),
@@ -323,7 +323,8 @@ CASES = [
     ("ens-overflows", put("ensemble.csv", "mean,sd,skew\n400,0.1,0\n"),
      r"ensemble\.csv: the ensemble's quantities between AEP 0\.999 and 1e-07 are not finite numbers"),
     ("scenario-draws-zero", append("[uncertainty]\ndraws_per_realization = 0\n"),
-     r"scenario\.toml, key 'uncertainty\.draws_per_realization': expected 1 to 10000"),
+     r"scenario\.toml, key 'uncertainty\.draws_per_realization': 0 is outside 1 to 10000; expected a number of "
+     r"response draws"),
 ]
 
 
