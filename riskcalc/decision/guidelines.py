@@ -45,8 +45,6 @@ from typing import ClassVar, Union
 
 import numpy as np
 
-from ..errors import InputError
-
 __all__ = [
     "MEASURES",
     "FNLimitLine",
