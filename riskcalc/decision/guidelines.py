@@ -336,7 +336,7 @@ def from_config(config: Mapping | None, prefix: str = "guidelines", file=None) -
     ------
     InputError
         (a ``ValueError``) naming the key, e.g.
-        ``key 'guidelines.fn_lines[0].anchor_f': -0.001 is not above 0; expected a positive annual
+        ``key 'guidelines.fn_lines[0].anchor_f': -0.001 is outside (0, 1]; expected a positive annual
         probability, at most 1``. The keys and their checks are declared in
         :mod:`riskcalc.config.schema`; the reading is :func:`riskcalc.config.guidelines.read_guidelines`.
 
