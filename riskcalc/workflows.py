@@ -163,7 +163,7 @@ def sensitivity_workflow(scenario_path, out, *, n=None, seed=None, second_order=
     sc_ = load_scenario(scenario_path)
     overrides = {"n": n, "seed": seed, "second_order": second_order or None, "target_width": target_width,
                  "morris": morris or None}
-    settings = read_settings(sc_.sensitivity, sc_.path, default_seed=sc_.seed, overrides=overrides,
+    settings = read_settings(sc_.raw.get("sensitivity"), sc_.path, default_seed=sc_.seed, overrides=overrides,
                              factors=scenario_factors(sc_.model))
     result = assess(sc_, workers=workers)
     report = sensitivity_for_run(sc_, result, settings, workers=workers)

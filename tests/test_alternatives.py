@@ -47,7 +47,7 @@ shift_sd = 0.2
 """
 
 
-def _scenario(factory, extra, *, knowledge=True, folder="sc"):
+def _scenario(factory, extra, *, knowledge=True, folder="sc", load=True):
     path = factory(folder=folder, modes=MODES_SHIFT, toml_extra=(KNOWLEDGE if knowledge else "") + extra)
     # the conftest writes [rating] itself; drop its first copy so that ours (with knowledge_sd) stands
     text = path.read_text()
@@ -55,7 +55,7 @@ def _scenario(factory, extra, *, knowledge=True, folder="sc"):
         text = text.replace('[rating]\ntable = "rating.csv"\n', "", 1)
     path.write_text(text)
     (path.parent / "consequences_x2.csv").write_text(CONSEQ_X2)
-    return load_scenario(path)
+    return load_scenario(path) if load else path
 
 
 ECON = """
@@ -218,9 +218,9 @@ def test_annualized_cost_and_headline_bcr(scenario_factory):
      "alternatives[1].uncertainty.draws_per_realization"),
 ])
 def test_bad_alternative_keys_name_the_key(scenario_factory, extra, key):
-    sc = _scenario(scenario_factory, ECON + extra)
+    path = _scenario(scenario_factory, ECON + extra, load=False)
     with pytest.raises(InputError) as info:
-        al.compare(sc)
+        load_scenario(path)  # refused when loaded, before any computation
     msg = str(info.value)
     assert "scenario.toml" in msg or "missing.csv" in msg
     if key is not None:
@@ -242,10 +242,10 @@ def test_bad_alternative_keys_name_the_key(scenario_factory, extra, key):
      "hazard = { ensemble = \"short.csv\" }\n", "economics.future.hazard.ensemble"),
 ])
 def test_bad_economics_keys_name_the_key(scenario_factory, econ, key):
-    sc = _scenario(scenario_factory, econ + _alt("a"), knowledge=False)
-    (sc.path.parent / "short.csv").write_text("mean,sd,skew\n2.5,0.25,0.0\n2.6,0.25,0.0\n")
+    path = _scenario(scenario_factory, econ + _alt("a"), knowledge=False, load=False)
+    (path.parent / "short.csv").write_text("mean,sd,skew\n2.5,0.25,0.0\n2.6,0.25,0.0\n")
     with pytest.raises(InputError) as info:
-        al.compare(sc)
+        load_scenario(path)  # refused when loaded, before any computation
     assert f"key '{key}'" in str(info.value)
 
 
@@ -322,9 +322,9 @@ def test_paired_table_means_match_the_headline(bundled):
 
 
 def test_compare_bad_input_exits_2_and_writes_nothing(scenario_factory, tmp_path, capsys):
-    sc = _scenario(scenario_factory, ECON + _alt("a", cost=-1), knowledge=False)
+    path = _scenario(scenario_factory, ECON + _alt("a", cost=-1), knowledge=False, load=False)
     out = tmp_path / "never"
-    code, _, err = _run(["compare", str(sc.path), "--out", str(out)], capsys)
+    code, _, err = _run(["compare", str(path), "--out", str(out)], capsys)
     assert code == 2 and "alternatives[1].first_cost" in err and "Traceback" not in err
     assert not out.exists()
     assert not list(tmp_path.glob(".never*"))

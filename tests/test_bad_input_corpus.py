@@ -98,6 +98,11 @@ def chain_include(p):
 
 ENS_OK_ROWS = "2.5,0.25,0.1\n2.55,0.24,0.0\n"
 
+# an F-N line entry and an alternative, to be completed by a case
+GUIDE_LINE = "[[guidelines.fn_lines]]\nname = 'limit'\nsource = 'Agency X policy'\nanchor_n = 1.0\n"
+ECON = "[economics]\nrate = 0.03\n"
+ALT = "[[alternatives]]\nname = 'raise'\nfirst_cost = 1.0e6\n"
+
 # (id, mutation, message regex): the regex names the file, the place and what was expected
 CASES = [
     # --- hazard ensembles (CSV) ------------------------------------------------------------------
@@ -241,7 +246,7 @@ CASES = [
      r"scenario\.toml, key 'failure_modes\[2\]\.name': failure-mode name 'breach' is used twice .*; names must be "
      r"unique"),
     ("negative-shift-sd", sub('name = "breach"', 'name = "breach"\nshift_sd = -1.0'),
-     r"scenario\.toml, key 'failure_modes\[1\]\.shift_sd': expected a standard deviation >= 0"),
+     r"scenario\.toml, key 'failure_modes\[1\]\.shift_sd': -1\.0 is negative; expected a standard deviation >= 0"),
     # --- consequence tables ----------------------------------------------------------------------
     ("cons-negative-damage", put("consequences.csv", "stage_m,damage_breach_usd\n1,0\n2,-5\n"),
      r"consequences\.csv, row 3, column 'damage_breach_usd': -5 must not be negative"),
@@ -297,7 +302,7 @@ CASES = [
     ("scenario-too-few-points", append("[grid]\npoints = 3\n"),
      r"scenario\.toml, key 'grid\.points': 3 is outside 50 to 200000"),
     ("scenario-bad-units", sub('discharge = "m3s"', 'discharge = "gpm"'),
-     r"scenario\.toml, key 'units\.discharge': 'gpm' is not one of m3s, cfs"),
+     r"scenario\.toml, key 'units\.discharge': 'gpm' is not m3s or cfs"),
     ("scenario-negative-seed", sub("seed = 42", "seed = -1"),
      r"scenario\.toml, key 'seed': -1 is negative; expected an integer >= 0"),
     ("scenario-mode-unknown-parameter", append("[hazard.mode]\nmean = 2.5\nsd = 0.25\nskew = 0.1\nshape = 1.0\n"),
@@ -323,7 +328,68 @@ CASES = [
     ("ens-overflows", put("ensemble.csv", "mean,sd,skew\n400,0.1,0\n"),
      r"ensemble\.csv: the ensemble's quantities between AEP 0\.999 and 1e-07 are not finite numbers"),
     ("scenario-draws-zero", append("[uncertainty]\ndraws_per_realization = 0\n"),
-     r"scenario\.toml, key 'uncertainty\.draws_per_realization': expected 1 to 10000"),
+     r"scenario\.toml, key 'uncertainty\.draws_per_realization': 0 is outside 1 to 10000; expected a number of "
+     r"response draws"),
+    # --- optional sections: refused when the scenario is loaded, before the Monte Carlo ----------
+    ("sensitivity-misspelt-key", append("[sensitivity]\nenabled = true\nsecond_ordr = true\n"),
+     r"scenario\.toml, key 'sensitivity\.second_ordr': unknown key; expected one of conf_level, enabled"),
+    ("sensitivity-n-not-power-of-two", append("[sensitivity]\nn = 1000\n"),
+     r"scenario\.toml, key 'sensitivity\.n': 1000 is not a power of two; expected a power of two >= 16"),
+    ("sensitivity-unknown-factor", append("[sensitivity]\nexclude = ['rating_offset']\n"),
+     r"scenario\.toml, key 'sensitivity\.exclude': 'rating_offset' is not an active factor of this scenario; "
+     r"expected one of hazard_realization"),
+    ("guidelines-misspelt-key", append("[guidelines]\ntitle = 'Agency X'\n"),
+     r"scenario\.toml, key 'guidelines\.title': unknown key; expected one of fn_lines, include"),
+    ("guidelines-line-misspelt-key", append(GUIDE_LINE + "anchorf = 1e-3\n"),
+     r"scenario\.toml, key 'guidelines\.fn_lines\[0\]\.anchorf': unknown key; expected one of anchor_f, anchor_n"),
+    ("guidelines-line-probability-above-1", append(GUIDE_LINE + "anchor_f = 2.0\n"),
+     r"scenario\.toml, key 'guidelines\.fn_lines\[0\]\.anchor_f': 2\.0 is outside \(0, 1\]; expected a positive "
+     r"annual probability"),
+    ("guidelines-unknown-default-set", append("[guidelines]\ninclude = ['usace']\n"),
+     r"scenario\.toml, key 'guidelines\.include\[0\]': 'usace' is not usace_2014, usbr_2011 or ancold_2003"),
+    ("economics-misspelt-key", append("[economics]\nrate = 0.03\nperiod = 50\n"),
+     r"scenario\.toml, key 'economics\.period': unknown key; expected one of base_year, future, period_years, rate"),
+    ("economics-future-misspelt-key", append("[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\n"
+                                             "year = 2070\ndamage_factr = 1.2\n"),
+     r"scenario\.toml, key 'economics\.future\.damage_factr': unknown key; expected one of consequences"),
+    ("economics-future-short-ensemble", both(put("short.csv", "mean,sd,skew\n2.5,0.25,0.0\n"), append(
+        "[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2070\n"
+        "hazard = { ensemble = 'short.csv' }\n")),
+     r"scenario\.toml, key 'economics\.future\.hazard\.ensemble': the future ensemble has 1 realizations but the "
+     r"base has 200"),
+    ("alternative-misspelt-key", append(ALT + "anual_om = 1.0e4\n"),
+     r"scenario\.toml, key 'alternatives\[1\]\.anual_om': unknown key; expected one of annual_om"),
+    ("alternative-without-economics", append(ALT),
+     r"scenario\.toml, key 'economics\.rate': missing required key; expected the discount rate"),
+    ("alternative-changes-the-hazard", append(ECON + ALT + "[alternatives.hazard]\nfamily = 'gev'\n"),
+     r"scenario\.toml, key 'alternatives\[1\]\.hazard': an alternative shares the base's hazard"),
+    ("alternative-bad-node-kind", append(ECON + ALT + "[[alternatives.failure_modes]]\nname = 'breach'\n"
+                                         "  [[alternatives.failure_modes.nodes]]\n  kind = 'weibull'\n"),
+     r"scenario\.toml, key 'alternatives\[1\]\.failure_modes\[1\]\.nodes\[1\]\.kind': 'weibull' is not normal, "
+     r"lognormal or table"),
+    ("alternative-missing-table", append(ECON + ALT + "[alternatives.consequences]\ntable = 'gone.csv'\n"),
+     r"gone\.csv, key 'alternatives\[1\]': file not found"),
+    ("alternative-future-misspelt-key", append(ECON + ALT + "[alternatives.future]\nconsequence = {}\n"),
+     r"scenario\.toml, key 'alternatives\[1\]\.future\.consequence': unknown key; expected one of consequences"),
+    ("alternative-future-bad-node", append(
+        "[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2070\n" + ALT +
+        "[[alternatives.future.failure_modes]]\nname = 'breach'\n  [[alternatives.future.failure_modes.nodes]]\n"
+        "  kind = 'normal'\n  median = 5.0\n"),
+     r"scenario\.toml, key 'alternatives\[1\]\.future\.failure_modes\[1\]\.nodes\[1\]\.spread': missing required "
+     r"key"),
+    ("economics-future-bad-consequences", append(
+        "[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2070\n"
+        "consequences = { damage_multiplier = { distribution = 'uniform' } }\n" + ALT),
+     r"scenario\.toml, key 'economics\.future\.consequences\.damage_multiplier\.distribution': 'uniform' is not "
+     r"fixed, triangular or lognormal"),
+    ("checks-misspelt-key", append("[checks]\ndesign_aep = 0.01\nyear = 50\n"),
+     r"scenario\.toml, key 'checks\.year': unknown key; expected one of design_aep, years"),
+    ("outputs-misspelt-key", append("[outputs]\nfigure = false\n"),
+     r"scenario\.toml, key 'outputs\.figure': unknown key; expected one of figures, memo"),
+    ("units-misspelt-key", sub('currency = "usd"', 'currency = "usd"\ncurency = "eur"'),
+     r"scenario\.toml, key 'units\.curency': unknown key; expected one of currency, discharge, stage"),
+    ("uncertainty-misspelt-key", append("[uncertainty]\ndraws = 4\n"),
+     r"scenario\.toml, key 'uncertainty\.draws': unknown key; expected one of draws_per_realization"),
 ]
 
 

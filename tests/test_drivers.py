@@ -300,9 +300,9 @@ def test_gap_repeats_with_the_seed(scenario_factory):
     ("[sensitivity.groups]\ng = []", "sensitivity.groups.g"),
 ])
 def test_bad_sensitivity_keys_name_the_key(scenario_factory, table, key):
-    sc = load_scenario(make(scenario_factory, "bad", sens="[sensitivity]\n" + table + "\n"))
+    path = make(scenario_factory, "bad", sens="[sensitivity]\n" + table + "\n")
     with pytest.raises(InputError) as e:
-        read_settings(sc.sensitivity, sc.path, default_seed=sc.seed, factors=scenario_factors(sc.model))
+        load_scenario(path)  # refused when loaded, before any computation
     assert e.value.key == key and "scenario.toml" in str(e.value) and "\n" not in str(e.value)
 
 

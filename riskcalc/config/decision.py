@@ -1,37 +1,39 @@
-"""The ``[economics]`` table and the ``[[alternatives]]`` entries of a scenario: validated settings."""
+"""The ``[economics]`` table and the ``[[alternatives]]`` entries of a scenario: validated settings and plan models.
+
+The keys are declared in ``SCHEMA["economics"]``, ``SCHEMA["economics_future"]``,
+``SCHEMA["alternative"]`` and ``SCHEMA["alternative_future"]`` of
+:mod:`riskcalc.config.schema`; the rules between fields (unique names, a
+future year after the base year, sections an alternative may not change,
+shared Monte Carlo draws) are the explicit checks here.
+"""
 
 from __future__ import annotations
 
 import copy
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
+
+import numpy as np
+
 from ..errors import InputError
+from .build import build_model
+from .schema import SCHEMA, validate
 
 
 #: Name of the without-project plan (the base scenario).
 BASE_NAME = "without project"
 
 
-#: Sections an alternative may override.
-OVERRIDES = ("rating", "failure_modes", "consequences", "uncertainty")
+#: Sections an alternative may override: the tables of the alternative's schema that are also scenario sections.
+OVERRIDES = tuple(k for k, f in SCHEMA["alternative"].items() if k in SCHEMA[""] and f.type in (dict, list))
 
 
-#: Sections an alternative shares with the base and may not change.
-SHARED = ("hazard", "grid", "seed", "units", "checks", "base", "title", "guidelines", "sensitivity", "outputs",
-          "alternatives", "economics")
+#: Sections an alternative shares with the base and may not change: every other scenario key.
+SHARED = tuple(k for k in SCHEMA[""] if k not in SCHEMA["alternative"])
 
 
-_ALT_KEYS = ("name", "description", "first_cost", "annual_om", "construction_months", "future") + OVERRIDES
-
-
-_FUTURE_KEYS = ("year", "hazard", "rating", "failure_modes", "consequences", "damage_factor", "life_loss_factor")
-
-
-_ALT_FUTURE_KEYS = ("rating", "failure_modes", "consequences")
-
-
-_ECON_KEYS = ("rate", "period_years", "base_year", "future")
+#: Sections ``[economics.future]`` may override.
+FUTURE_OVERRIDES = tuple(k for k, f in SCHEMA["economics_future"].items() if f.type in (dict, list))
 
 
 @dataclass(frozen=True)
@@ -99,26 +101,6 @@ class Alternative:
     index: int
 
 
-def _number(v, file, key, *, lo=None, lo_open=False, hi=None, integer=False):
-    ok_type = isinstance(v, int) if integer else isinstance(v, (int, float))
-    if isinstance(v, bool) or not ok_type:
-        raise InputError(f"expected {'an integer' if integer else 'a number'}, got {v!r}"[:160], file, key=key)
-    v = int(v) if integer else float(v)
-    if not math.isfinite(v):
-        raise InputError(f"{v} is not finite", file, key=key)
-    if lo is not None and (v <= lo if lo_open else v < lo):
-        raise InputError(f"{v:g} is {'not above' if lo_open else 'below'} {lo:g}", file, key=key)
-    if hi is not None and v >= hi:
-        raise InputError(f"{v:g} is not below {hi:g}", file, key=key)
-    return v
-
-
-def _table(v, file, key):
-    if not isinstance(v, dict):
-        raise InputError(f"expected a table, got {v!r}"[:160], file, key=key)
-    return v
-
-
 def _resolve_paths(d: dict, here: Path) -> dict:
     """A copy of an override with its table paths absolute (already absolute paths are kept)."""
     from ..config.scenario import _absolutize
@@ -128,8 +110,8 @@ def _resolve_paths(d: dict, here: Path) -> dict:
     return out
 
 
-def parse_economics(scenario) -> EconomicSettings:
-    """Validate ``scenario.economics``.
+def read_economics(raw, file) -> EconomicSettings:
+    """Validate an ``[economics]`` table (keys: ``SCHEMA["economics"]`` and ``SCHEMA["economics_future"]``).
 
     Relative table paths of ``[economics.future]`` are read relative to the
     scenario file itself.
@@ -139,109 +121,208 @@ def parse_economics(scenario) -> EconomicSettings:
     InputError
         Naming the key, e.g. ``economics.rate``.
     """
-    file = scenario.path
-    e = _table(scenario.economics or {}, file, "economics")
-    for k in e:
-        if k not in _ECON_KEYS:
-            raise InputError(f"unknown key; expected one of {', '.join(_ECON_KEYS)}", file, key=f"economics.{k}")
-    if "rate" not in e:
-        raise InputError("missing required key (the discount rate as a fraction, e.g. 0.03)", file,
-                         key="economics.rate")
-    rate = _number(e["rate"], file, "economics.rate", lo=0.0, hi=1.0)
-    period = _number(e.get("period_years", 50), file, "economics.period_years", lo=1, integer=True)
-    base_year = e.get("base_year")
-    fut = e.get("future")
-    if base_year is not None:
-        base_year = _number(base_year, file, "economics.base_year", lo=0, integer=True)
-    if fut is None:
+    file = Path(file)
+    e = validate("economics", {} if raw is None else raw, file, "economics.")
+    rate, period, base_year = e["rate"], e["period_years"], e["base_year"]
+    if "future" not in e:
         return EconomicSettings(rate=rate, period_years=period, base_year=base_year)
-    fut = _table(fut, file, "economics.future")
+    fut = e["future"]
     if base_year is None:
-        raise InputError("missing required key (a future condition needs the base year)", file,
-                         key="economics.base_year")
-    for k in fut:
-        if k not in _FUTURE_KEYS:
-            raise InputError(f"unknown key; expected one of {', '.join(_FUTURE_KEYS)}", file,
-                             key=f"economics.future.{k}")
-    if "year" not in fut:
-        raise InputError("missing required key (the calendar year of the future condition)", file,
+        raise InputError("missing required key; expected the calendar year of year 1 (a future condition needs it)",
+                         file, key="economics.base_year")
+    if fut["year"] <= base_year:
+        raise InputError(f"{fut['year']} is not after economics.base_year = {base_year}", file,
                          key="economics.future.year")
-    year = _number(fut["year"], file, "economics.future.year", integer=True)
-    if year <= base_year:
-        raise InputError(f"{year} is not after economics.base_year = {base_year}", file,
-                         key="economics.future.year")
-    factors = {}
-    for k in ("damage_factor", "life_loss_factor"):
-        factors[k] = _number(fut.get(k, 1.0), file, f"economics.future.{k}", lo=0.0, lo_open=True)
-    for k in ("hazard", "rating", "consequences"):
-        if k in fut:
-            _table(fut[k], file, f"economics.future.{k}")
-    if "failure_modes" in fut and not isinstance(fut["failure_modes"], list):
-        raise InputError("expected a list of tables ([[economics.future.failure_modes]])", file,
-                         key="economics.future.failure_modes")
-    override = {k: v for k, v in fut.items() if k in ("hazard", "rating", "failure_modes", "consequences")}
-    return EconomicSettings(rate=rate, period_years=period, base_year=base_year, future_year=year,
-                            future=_resolve_paths(override, file.parent), **factors)
+    override = {k: fut[k] for k in FUTURE_OVERRIDES if k in fut}
+    return EconomicSettings(rate=rate, period_years=period, base_year=base_year, future_year=fut["year"],
+                            future=_resolve_paths(override, file.parent), damage_factor=fut["damage_factor"],
+                            life_loss_factor=fut["life_loss_factor"])
 
 
-def parse_alternatives(scenario) -> tuple:
-    """Validate ``scenario.alternatives`` into :class:`Alternative` entries (keys only; models are built later).
+def read_alternatives(raw, file, base_uncertainty: dict) -> tuple:
+    """Validate ``[[alternatives]]`` entries into :class:`Alternative` specs (keys: ``SCHEMA["alternative"]``).
+
+    Models are not built here (see :func:`check_plans`).
+
+    Parameters
+    ----------
+    raw : list of dict
+    file : path
+    base_uncertainty : dict
+        The base scenario's ``[uncertainty]`` section (alternatives share its draws).
 
     Raises
     ------
     InputError
         Naming the key, e.g. ``alternatives[2].first_cost``.
     """
-    file = scenario.path
-    alts = scenario.alternatives
-    if not isinstance(alts, list) or not alts:
+    file = Path(file)
+    if not isinstance(raw, list) or not raw:
         raise InputError("expected at least one [[alternatives]] entry to compare", file, key="alternatives")
     out, seen = [], set()
-    for i, a in enumerate(alts, start=1):
+    for i, a in enumerate(raw, start=1):
         key = f"alternatives[{i}]"
-        _table(a, file, key)
-        for k in a:
+        for k in a if isinstance(a, dict) else ():
             if k in SHARED:
                 raise InputError(f"an alternative shares the base's {k}; it may override only "
                                  f"{', '.join(OVERRIDES)} (a changed hazard belongs in [economics.future])",
                                  file, key=f"{key}.{k}")
-            if k not in _ALT_KEYS:
-                raise InputError(f"unknown key; expected one of {', '.join(_ALT_KEYS)}", file, key=f"{key}.{k}")
-        name = a.get("name")
-        if not isinstance(name, str) or not name.strip():
-            raise InputError("missing or empty; expected the alternative's name", file, key=f"{key}.name")
-        name = name.strip()
+        v = validate("alternative", a, file, key + ".")
+        name = v["name"].strip()
         if name in seen or name == BASE_NAME:
             raise InputError(f"the name '{name}' is used twice (or is the base's); names must be unique", file,
                              key=f"{key}.name")
         seen.add(name)
-        desc = a.get("description", "")
-        if not isinstance(desc, str):
-            raise InputError(f"expected text, got {desc!r}"[:160], file, key=f"{key}.description")
-        if "first_cost" not in a:
-            raise InputError("missing required key (construction cost in the scenario's currency)", file,
+        if v["first_cost"] == 0 and v["annual_om"] == 0:
+            raise InputError("the alternative costs nothing; expected first_cost or annual_om above 0", file,
                              key=f"{key}.first_cost")
-        first = _number(a["first_cost"], file, f"{key}.first_cost", lo=0.0)
-        om = _number(a.get("annual_om", 0.0), file, f"{key}.annual_om", lo=0.0)
-        months = _number(a.get("construction_months", 0), file, f"{key}.construction_months", lo=0, integer=True)
-        if not any(k in a for k in OVERRIDES):
-            pass  # an alternative identical to the base is allowed (zero benefit); useful as a check
-        uo = a.get("uncertainty")
-        if uo is not None:
-            _table(uo, file, f"{key}.uncertainty")
-            base_unc = scenario.uncertainty
-            for k in ("draws_per_realization", "workers"):
-                if k in uo and uo[k] != base_unc.get(k):
-                    raise InputError(f"alternatives share the base's Monte Carlo draws; set uncertainty.{k} in the "
-                                     "base scenario", file, key=f"{key}.uncertainty.{k}")
-        fut = a.get("future", {})
-        _table(fut, file, f"{key}.future")
-        for k in fut:
-            if k not in _ALT_FUTURE_KEYS:
-                raise InputError(f"unknown key; expected one of {', '.join(_ALT_FUTURE_KEYS)}", file,
-                                 key=f"{key}.future.{k}")
-        override = {k: a[k] for k in OVERRIDES if k in a}
-        out.append(Alternative(name=name, description=desc, first_cost=first, annual_om=om,
-                               construction_months=months, override=_resolve_paths(override, file.parent),
-                               future_override=_resolve_paths(fut, file.parent), index=i))
+        for k in ("draws_per_realization", "workers"):
+            uo = v.get("uncertainty", {})
+            if k in uo and uo[k] != base_uncertainty.get(k):
+                raise InputError(f"alternatives share the base's Monte Carlo draws; set uncertainty.{k} in the "
+                                 "base scenario", file, key=f"{key}.uncertainty.{k}")
+        override = {k: v[k] for k in OVERRIDES if k in v}
+        out.append(Alternative(name=name, description=v["description"], first_cost=v["first_cost"],
+                               annual_om=v["annual_om"], construction_months=v["construction_months"],
+                               override=_resolve_paths(override, file.parent),
+                               future_override=_resolve_paths(v["future"], file.parent), index=i))
     return tuple(out)
+
+
+def _key(prefix, key):
+    return f"{prefix}.{key}" if prefix and key else (prefix or key)
+
+
+def plan_dict(raw: dict, overrides=()) -> dict:
+    """The scenario dict of a plan: the base's (without alternatives and economics) with ``overrides`` merged in order."""
+    from .scenario import _merge
+
+    d = {k: v for k, v in raw.items() if k not in ("alternatives", "economics")}
+    for o in overrides:
+        d = _merge(d, o)
+    return d
+
+
+def build_plan_model(raw: dict, file, units: dict, variable: str, draws: int, overrides=(), prefix: str = ""):
+    """The response and consequence model of a plan, validated by the code path of the base scenario.
+
+    Parameters
+    ----------
+    raw : dict
+        The base scenario dict (``Scenario.raw``).
+    file : path
+    units : dict
+    variable : str
+        The hazard variable, discharge or stage.
+    draws : int
+        The base's ``uncertainty.draws_per_realization`` (plans share the draws).
+    overrides : sequence of dict
+        Merged one after another over the base (tables key by key, lists replaced).
+    prefix : str
+        Key prefix of messages, e.g. ``"alternatives[2]"``.
+
+    Returns
+    -------
+    RiskModel
+
+    Raises
+    ------
+    InputError
+        With its key re-keyed under ``prefix``, e.g. ``alternatives[1].failure_modes[1].nodes[1].kind``.
+    """
+    d = plan_dict(raw, overrides)
+    try:
+        model = build_model(d, file, units, variable)
+        unc = validate("uncertainty", d.get("uncertainty", {}), file, "uncertainty.")
+    except InputError as exc:
+        if not prefix:
+            raise
+        raise InputError(exc.detail, exc.file, key=_key(prefix, exc.key), row=exc.row, column=exc.column) from None
+    if unc["draws_per_realization"] != draws:
+        raise InputError("alternatives share the base's Monte Carlo draws; set it in the base scenario", file,
+                         key=_key(prefix, "uncertainty.draws_per_realization"))
+    return model
+
+
+def read_future_hazard(raw_hazard: dict, override, file, units: dict, base_ensemble, base_mode: dict):
+    """The future-year hazard ensemble and mode parameters of ``[economics.future]``.
+
+    The override is merged over the base's ``[hazard]`` and validated as a
+    hazard section (keys ``economics.future.hazard.<key>``); the ensemble must
+    give the same variable, the same number of realizations and the same
+    weights as the base, since row r of the future ensemble is the future of
+    realization r. Without a hazard override the base's are returned.
+
+    Returns
+    -------
+    ensemble : HazardEnsemble
+    mode_params : dict
+    """
+    from .scenario import _merge, read_hazard, read_hazard_ensemble
+
+    if not override:
+        return base_ensemble, base_mode
+    prefix = "economics.future.hazard."
+    merged = _merge(raw_hazard, override)
+    if "mode" not in override:  # the base's mode parameters belong to the base's family
+        merged.pop("mode", None)
+    hz, family, mode = read_hazard(merged, file, prefix)
+    if hz["variable"] != base_ensemble.quantity:
+        raise InputError("the future hazard must give the same variable as the base", file, key=prefix + "variable")
+    ens = read_hazard_ensemble(hz, family, file, units, prefix)
+    if ens.size != base_ensemble.size:
+        raise InputError(f"the future ensemble has {ens.size} realizations but the base has {base_ensemble.size}; "
+                         "row r of the future ensemble must be the future of realization r", file,
+                         key=prefix + "ensemble")
+    if not np.allclose(ens.weights, base_ensemble.weights, rtol=1e-9, atol=0):
+        raise InputError("the future ensemble's weights differ from the base's; realizations must pair", file,
+                         key=prefix + "ensemble")
+    if "mode" not in override:
+        mode = dict(base_mode) if family == base_ensemble.family else {}
+    return ens, mode
+
+
+def check_plans(raw: dict, file, units: dict, ensemble, mode_params: dict, draws: int, economics, alternatives):
+    """Build every plan a comparison would build, once, so that a bad one is refused before any computation.
+
+    The alternatives in the base year; with a future condition, its ensemble,
+    the base's future model and every alternative's future model.
+    """
+    variable = ensemble.quantity
+    for a in alternatives:
+        build_plan_model(raw, file, units, variable, draws, [a.override], f"alternatives[{a.index}]")
+    if economics is None or economics.future_year is None:
+        return
+    read_future_hazard(raw["hazard"], economics.future.get("hazard"), file, units, ensemble, mode_params)
+    build_plan_model(raw, file, units, variable, draws, [economics.future], "economics.future")
+    for a in alternatives:
+        build_plan_model(raw, file, units, variable, draws, [a.override, economics.future, a.future_override],
+                         f"alternatives[{a.index}].future")
+
+
+def parse_economics(scenario) -> EconomicSettings:
+    """The scenario's :class:`EconomicSettings` (validated when it was loaded).
+
+    Raises
+    ------
+    InputError
+        When the scenario has no ``[economics]`` table (``economics.rate`` is then missing).
+    """
+    e = scenario.economics
+    if isinstance(e, EconomicSettings):
+        return e
+    return read_economics(e or {}, scenario.path)
+
+
+def parse_alternatives(scenario) -> tuple:
+    """The scenario's :class:`Alternative` specs (validated when it was loaded).
+
+    Raises
+    ------
+    InputError
+        When the scenario has no ``[[alternatives]]`` entry.
+    """
+    alts = scenario.alternatives
+    if alts and all(isinstance(a, Alternative) for a in alts):
+        return tuple(alts)
+    return read_alternatives(list(alts or []), scenario.path, scenario.uncertainty)

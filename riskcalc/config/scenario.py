@@ -25,7 +25,7 @@ from ..errors import InputError
 from ..hazard import read_ensemble
 from ..hazard.families import FAMILIES
 from .build import build_model
-from .schema import DISCHARGE_UNITS, STAGE_UNITS, _file_name, _probability, check_section
+from .schema import check_section, validate
 
 
 PATH_KEYS = (("hazard", "ensemble"), ("rating", "table"), ("consequences", "table"))
@@ -43,6 +43,8 @@ def _read_toml(path: Path) -> dict:
     except UnicodeDecodeError as exc:
         line = raw[: exc.start].count(b"\n") + 1
         raise InputError(f"byte 0x{raw[exc.start]:02x} is not UTF-8 text", path, row=line) from None
+    if text.startswith("\ufeff"):  # a byte-order mark, as some Windows editors write
+        text = text[1:]
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -108,7 +110,39 @@ def read_scenario_dict(path, _chain=()) -> tuple[dict, list[Path]]:
 
 @dataclass(frozen=True, eq=False)
 class Scenario:
-    """A validated scenario: the ensemble, the model and the settings."""
+    """A validated scenario: the ensemble, the model and the settings.
+
+    Attributes
+    ----------
+    path : Path
+    title, description : str
+    seed : int
+    units : dict
+        ``discharge``, ``stage``, ``currency`` (lower case).
+    ensemble : HazardEnsemble
+    mode_params : dict
+        Explicit mode-curve parameters (empty: the largest log posterior).
+    model : RiskModel
+    credible_level : float
+    grid, uncertainty, checks, outputs : dict
+        The sections with their defaults filled.
+    guidelines : GuidelineSet or None
+        The ``[guidelines]`` section; None when the scenario has none (the
+        published display defaults are then used).
+    sensitivity : SensitivitySettings
+        The ``[sensitivity]`` section, its factor names checked against the model.
+    alternatives : tuple of Alternative
+        The ``[[alternatives]]`` entries; every plan's model has been built once
+        to validate it.
+    economics : EconomicSettings or None
+        The ``[economics]`` section; None when the scenario has none.
+    files : tuple of Path
+        Every file read (scenario chain and tables).
+    raw : dict
+        The merged scenario dict with absolute table paths (alternatives merge over it).
+    file_hashes : dict
+        SHA-256 of every input as read, keyed by relative path.
+    """
 
     path: Path
     title: str
@@ -123,10 +157,10 @@ class Scenario:
     uncertainty: dict
     checks: dict
     outputs: dict
-    guidelines: dict
-    sensitivity: dict
-    alternatives: list
-    economics: dict
+    guidelines: object
+    sensitivity: object
+    alternatives: tuple
+    economics: object
     files: tuple = ()
     raw: dict = field(default_factory=dict)
     file_hashes: dict = field(default_factory=dict)  # SHA-256 of every input as read, keyed by relative path
@@ -161,82 +195,104 @@ def _hashes(files, scenario_path) -> dict:
     return {Path(os.path.relpath(Path(f).resolve(), here)).as_posix(): sha256(f) for f in files}
 
 
+def read_units(d, file) -> dict:
+    """The ``[units]`` section, the currency in lower case."""
+    units = validate("units", d, file, "units.")
+    if not units["currency"].isalpha():
+        raise InputError(f"'{units['currency']}' is not a currency code such as usd or eur", file,
+                         key="units.currency")
+    units["currency"] = units["currency"].lower()
+    return units
+
+
+def read_hazard(d, file, prefix: str = "hazard.") -> tuple:
+    """Validate a ``[hazard]`` section without reading its ensemble.
+
+    Returns
+    -------
+    hz : dict
+        The section with defaults filled.
+    family : str
+        The family in lower case (``"table"`` for a curve table).
+    mode_params : dict
+        Explicit mode-curve parameters as floats (empty when none are given).
+    """
+    hz = validate("hazard", d, file, prefix)
+    family = hz["family"].strip().lower()
+    if family != "table" and family not in FAMILIES:
+        raise InputError(f"unknown family '{hz['family']}'; expected one of {', '.join(FAMILIES)} or table", file,
+                         key=prefix + "family")
+    mode = hz["mode"]
+    if mode:
+        if family == "table":
+            raise InputError("explicit mode parameters need a parametric family", file, key=prefix + "mode")
+        need = FAMILIES[family].parameters
+        for k in mode:
+            if k not in need:
+                raise InputError(f"unknown parameter; expected {', '.join(need)}", file, key=f"{prefix}mode.{k}")
+        for k in need:
+            if k not in mode or not isinstance(mode[k], (int, float)) or isinstance(mode[k], bool):
+                raise InputError("missing or not a number", file, key=f"{prefix}mode.{k}")
+            if not math.isfinite(mode[k]):
+                raise InputError(f"{mode[k]} is not finite", file, key=f"{prefix}mode.{k}")
+            if k in FAMILIES[family].positive and not mode[k] > 0:
+                raise InputError(f"{mode[k]} must be greater than 0", file, key=f"{prefix}mode.{k}")
+    return hz, family, {k: float(v) for k, v in mode.items()}
+
+
+def read_hazard_ensemble(hz: dict, family: str, file, units: dict, prefix: str = "hazard."):
+    """Read the ensemble a validated ``[hazard]`` section names (see :func:`read_hazard`)."""
+    unit = units["discharge"] if hz["variable"] == "discharge" else units["stage"]
+    ens = read_ensemble(hz["ensemble"], family, quantity=hz["variable"], unit=unit)
+    if family == "table" and ens.quantity != hz["variable"]:
+        raise InputError(f"the curve table gives {ens.quantity} but hazard.variable is {hz['variable']}", file,
+                         key=prefix + "variable")
+    return ens
+
+
 def load_scenario(path) -> Scenario:
-    """Read and validate a scenario file and every table it names.
+    """Read and validate a scenario file and every table it names, refusing all that a run would refuse.
+
+    Every section is validated against :data:`riskcalc.config.schema.SCHEMA`
+    before any table is read; then the ensemble and the tables are read, the
+    model is built, the ``[sensitivity]`` factor names are checked against the
+    model's active factors, and every alternative's model (and the future-year
+    condition of ``[economics]``, its ensemble included) is built once. Nothing
+    is computed beyond reading and checking the inputs.
 
     Raises
     ------
     InputError
         On the first problem, with its file, key, row and column.
     """
+    from ..sensitivity.factors import scenario_factors, select_factors
+    from .decision import check_plans, read_alternatives, read_economics
+    from .guidelines import read_guidelines
+    from .settings import read_settings
+
     path = Path(path)
     d, files = read_scenario_dict(path)
     top = check_section("", d, path, "")
-    if top["seed"] < 0:
-        raise InputError(f"{top['seed']} is negative; expected an integer >= 0", path, key="seed")
-    units = check_section("units", top["units"], path, "units.")
-    if units["discharge"] not in DISCHARGE_UNITS:
-        raise InputError(f"'{units['discharge']}' is not one of {', '.join(DISCHARGE_UNITS)}", path,
-                         key="units.discharge")
-    if units["stage"] not in STAGE_UNITS:
-        raise InputError(f"'{units['stage']}' is not one of {', '.join(STAGE_UNITS)}", path, key="units.stage")
-    if not units["currency"].isalpha():
-        raise InputError(f"'{units['currency']}' is not a currency code such as usd or eur", path,
-                         key="units.currency")
-    units["currency"] = units["currency"].lower()
-    hz = check_section("hazard", top["hazard"], path, "hazard.")
-    if hz["variable"] not in ("discharge", "stage"):
-        raise InputError(f"'{hz['variable']}' is not discharge or stage", path, key="hazard.variable")
-    family = hz["family"].strip().lower()
-    if family != "table" and family not in FAMILIES:
-        raise InputError(f"unknown family '{hz['family']}'; expected one of {', '.join(FAMILIES)} or table", path,
-                         key="hazard.family")
-    _probability(hz["credible_level"], path, "hazard.credible_level")
-    unit = units["discharge"] if hz["variable"] == "discharge" else units["stage"]
-    _file_name(hz["ensemble"], path, "hazard.ensemble")
-    ens = read_ensemble(hz["ensemble"], family, quantity=hz["variable"], unit=unit)
-    if family == "table" and ens.quantity != hz["variable"]:
-        raise InputError(f"the curve table gives {ens.quantity} but hazard.variable is {hz['variable']}", path,
-                         key="hazard.variable")
-    mode = hz["mode"]
-    if mode:
-        if family == "table":
-            raise InputError("explicit mode parameters need a parametric family", path, key="hazard.mode")
-        need = FAMILIES[family].parameters
-        for k in mode:
-            if k not in need:
-                raise InputError(f"unknown parameter; expected {', '.join(need)}", path, key=f"hazard.mode.{k}")
-        for k in need:
-            if k not in mode or not isinstance(mode[k], (int, float)) or isinstance(mode[k], bool):
-                raise InputError("missing or not a number", path, key=f"hazard.mode.{k}")
-            if not math.isfinite(mode[k]):
-                raise InputError(f"{mode[k]} is not finite", path, key=f"hazard.mode.{k}")
-            if k in FAMILIES[family].positive and not mode[k] > 0:
-                raise InputError(f"{mode[k]} must be greater than 0", path, key=f"hazard.mode.{k}")
-    grid = check_section("grid", top["grid"], path, "grid.")
-    _probability(grid["aep_max"], path, "grid.aep_max")
-    _probability(grid["aep_min"], path, "grid.aep_min")
+    units = read_units(top["units"], path)
+    hz, family, mode = read_hazard(top["hazard"], path)
+    grid = validate("grid", top["grid"], path, "grid.")
     if not grid["aep_min"] < grid["aep_max"]:
         raise InputError(f"{grid['aep_min']} must be below grid.aep_max = {grid['aep_max']}", path, key="grid.aep_min")
-    if not 50 <= grid["points"] <= 200_000:
-        raise InputError(f"{grid['points']} is outside 50 to 200000", path, key="grid.points")
-    if grid["rule"] not in ("midpoint", "trapezoid"):
-        raise InputError(f"'{grid['rule']}' is not midpoint or trapezoid", path, key="grid.rule")
-    model = build_model(d, path, units, hz["variable"])
-    unc = check_section("uncertainty", top["uncertainty"], path, "uncertainty.")
-    if not 1 <= unc["draws_per_realization"] <= 10_000:
-        raise InputError("expected 1 to 10000", path, key="uncertainty.draws_per_realization")
-    if unc["workers"] < 0:
-        raise InputError(f"{unc['workers']} is negative; expected 0 (the machine's cores) or a number of threads",
-                         path, key="uncertainty.workers")
-    checks = check_section("checks", top["checks"], path, "checks.")
-    _probability(checks["design_aep"], path, "checks.design_aep")
+    unc = validate("uncertainty", top["uncertainty"], path, "uncertainty.")
+    checks = validate("checks", top["checks"], path, "checks.")
     if not grid["aep_min"] <= checks["design_aep"] <= grid["aep_max"]:
         raise InputError(f"{checks['design_aep']} is outside the grid's AEP range [{grid['aep_min']}, "
                          f"{grid['aep_max']}]", path, key="checks.design_aep")
-    if checks["years"] < 1:
-        raise InputError("expected a number of years >= 1", path, key="checks.years")
-    outputs = check_section("outputs", top["outputs"], path, "outputs.")
+    outputs = validate("outputs", top["outputs"], path, "outputs.")
+    sensitivity = read_settings(top["sensitivity"], path, default_seed=top["seed"])
+    guidelines = read_guidelines(top["guidelines"], path) if top["guidelines"] else None
+    alternatives = read_alternatives(top["alternatives"], path, unc) if top["alternatives"] else ()
+    economics = read_economics(top["economics"], path) if top["economics"] or alternatives else None
+    # the tables
+    ens = read_hazard_ensemble(hz, family, path, units)
+    model = build_model(d, path, units, hz["variable"])
+    select_factors(scenario_factors(model), sensitivity, path)
+    check_plans(d, path, units, ens, mode, unc["draws_per_realization"], economics, alternatives)
     inputs = [Path(hz["ensemble"])]
     if model.rating is not None:
         inputs.append(Path(model.rating.source))
@@ -246,7 +302,7 @@ def load_scenario(path) -> Scenario:
     inputs += _table_paths(top["alternatives"]) + _table_paths(top["economics"])
     all_files = tuple(dict.fromkeys([*files, *inputs]))
     return Scenario(path=path, title=top["title"], description=top["description"], seed=top["seed"], units=units,
-                    ensemble=ens, mode_params={k: float(v) for k, v in mode.items()}, model=model,
-                    credible_level=hz["credible_level"], grid=grid, uncertainty=unc, checks=checks, outputs=outputs,
-                    guidelines=top["guidelines"], sensitivity=top["sensitivity"], alternatives=top["alternatives"],
-                    economics=top["economics"], files=all_files, raw=d, file_hashes=_hashes(all_files, path))
+                    ensemble=ens, mode_params=mode, model=model, credible_level=hz["credible_level"], grid=grid,
+                    uncertainty=unc, checks=checks, outputs=outputs, guidelines=guidelines, sensitivity=sensitivity,
+                    alternatives=alternatives, economics=economics, files=all_files, raw=d,
+                    file_hashes=_hashes(all_files, path))

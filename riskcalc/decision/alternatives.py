@@ -54,9 +54,7 @@ from . import economics as ec
 from ..risk.assess import build_grid
 from ..risk.records import weighted_summary
 from ..errors import InputError
-from ..hazard import read_ensemble
 from ..hazard.curves import mode_curve
-from ..hazard.families import FAMILIES
 from ..risk.integrate import cell_masses
 from ..risk.propagate import chunk_rows_for, propagate
 from ..config.decision import BASE_NAME, EconomicSettings, parse_alternatives, parse_economics
@@ -90,24 +88,10 @@ def plan_model(scenario, overrides=(), prefix="", damage_factor=1.0, life_loss_f
     -------
     RiskModel
     """
-    from ..config.build import build_model
-    from ..config.scenario import _merge
-    from ..config.schema import check_section
+    from ..config.decision import build_plan_model
 
-    d = _base_dict(scenario)
-    for o in overrides:
-        d = _merge(d, o)
-    try:
-        model = build_model(d, scenario.path, scenario.units, scenario.ensemble.quantity)
-        unc = check_section("uncertainty", d.get("uncertainty", {}), scenario.path, "uncertainty.")
-    except InputError as exc:
-        if not prefix:
-            raise
-        key = f"{prefix}.{exc.key}" if exc.key else prefix
-        raise InputError(exc.detail, exc.file, key=key, row=exc.row, column=exc.column) from None
-    if unc["draws_per_realization"] != scenario.uncertainty["draws_per_realization"]:
-        raise InputError("alternatives share the base's Monte Carlo draws; set it in the base scenario",
-                         scenario.path, key=f"{prefix}.uncertainty.draws_per_realization")
+    model = build_plan_model(scenario.raw, scenario.path, scenario.units, scenario.ensemble.quantity,
+                             scenario.uncertainty["draws_per_realization"], overrides, prefix)
     if damage_factor != 1.0 or life_loss_factor != 1.0:
         model = dataclasses.replace(model, consequences=model.consequences.scaled(damage_factor, life_loss_factor))
     return model
@@ -115,32 +99,10 @@ def plan_model(scenario, overrides=(), prefix="", damage_factor=1.0, life_loss_f
 
 def _future_ensemble(scenario, settings):
     """The future-year hazard ensemble and mode parameters (the base's when the future keeps the hazard)."""
-    from ..config.scenario import _merge
-    from ..config.schema import check_section
+    from ..config.decision import read_future_hazard
 
-    hz_override = settings.future.get("hazard")
-    if not hz_override:
-        return scenario.ensemble, scenario.mode_params
-    file = scenario.path
-    hz = check_section("hazard", _merge(scenario.raw["hazard"], hz_override), file, "economics.future.hazard.")
-    if hz["variable"] != scenario.ensemble.quantity:
-        raise InputError("the future hazard must give the same variable as the base", file,
-                         key="economics.future.hazard.variable")
-    family = hz["family"].strip().lower()
-    if family != "table" and family not in FAMILIES:
-        raise InputError(f"unknown family '{hz['family']}'", file, key="economics.future.hazard.family")
-    unit = scenario.units["discharge"] if hz["variable"] == "discharge" else scenario.units["stage"]
-    ens = read_ensemble(hz["ensemble"], family, quantity=hz["variable"], unit=unit)
-    base = scenario.ensemble
-    if ens.size != base.size:
-        raise InputError(f"the future ensemble has {ens.size} realizations but the base has {base.size}; row r of "
-                         "the future ensemble must be the future of realization r", file,
-                         key="economics.future.hazard.ensemble")
-    if not np.allclose(ens.weights, base.weights, rtol=1e-9, atol=0):
-        raise InputError("the future ensemble's weights differ from the base's; realizations must pair", file,
-                         key="economics.future.hazard.ensemble")
-    mode = hz["mode"] if "mode" in hz_override else (scenario.mode_params if family == base.family else {})
-    return ens, {k: float(v) for k, v in (mode or {}).items()}
+    return read_future_hazard(scenario.raw["hazard"], settings.future.get("hazard"), scenario.path, scenario.units,
+                              scenario.ensemble, scenario.mode_params)
 
 
 def sampling_signature(chain) -> tuple:
@@ -294,8 +256,10 @@ def _annualize(series, settings):
 
 
 def _guideline_lines(scenario):
-    from .guidelines import DEFAULT_GUIDELINES, from_config
+    from .guidelines import DEFAULT_GUIDELINES, GuidelineSet, from_config
 
+    if isinstance(scenario.guidelines, GuidelineSet):
+        return scenario.guidelines.chart_lines
     if scenario.guidelines:
         return from_config(scenario.guidelines, file=scenario.path).chart_lines
     return tuple(ln for gs in DEFAULT_GUIDELINES.values() for ln in gs.chart_lines)

@@ -38,14 +38,12 @@ References
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import ClassVar, Union
 
 import numpy as np
-
-from ..errors import InputError
 
 __all__ = [
     "MEASURES",
@@ -301,21 +299,13 @@ DEFAULT_GUIDELINES: Mapping[str, GuidelineSet] = MappingProxyType({
 # --------------------------------------------------------------------------
 # Configuration
 # --------------------------------------------------------------------------
-_TABLES = {
-    "fn_lines": (FNLimitLine, ("name", "source", "anchor_n", "anchor_f"), ("slope", "n_min", "n_max")),
-    "life_loss_lines": (LifeLossLine, ("name", "source", "value"), ("n_min", "n_max")),
-    "probability_lines": (ProbabilityLine, ("name", "source", "value"), ("measure",)),
-}
-_TOP_KEYS = ("name", "source", "include") + tuple(_TABLES)
-
-
 def from_config(config: Mapping | None, prefix: str = "guidelines", file=None) -> GuidelineSet:
     """Build a guideline set from a plain dict, as read from a TOML ``[guidelines]`` section.
 
     Parameters
     ----------
     config : mapping or None
-        Keys (all optional):
+        Keys (all optional; declared in ``SCHEMA["guidelines"]`` of :mod:`riskcalc.config.schema`):
 
         ``name``, ``source``
             Title and citation of the set (default ``"custom"`` and
@@ -346,7 +336,9 @@ def from_config(config: Mapping | None, prefix: str = "guidelines", file=None) -
     ------
     InputError
         (a ``ValueError``) naming the key, e.g.
-        ``key 'guidelines.fn_lines[0].anchor_f': expected a positive number, got -0.001``.
+        ``key 'guidelines.fn_lines[0].anchor_f': -0.001 is outside (0, 1]; expected a positive annual
+        probability, at most 1``. The keys and their checks are declared in
+        :mod:`riskcalc.config.schema`; the reading is :func:`riskcalc.config.guidelines.read_guidelines`.
 
     Examples
     --------
@@ -355,52 +347,9 @@ def from_config(config: Mapping | None, prefix: str = "guidelines", file=None) -
     >>> float(evaluate_line(gs.lines[0], 10.0))
     0.0001
     """
-    if config is None:
-        config = {}
-    if not isinstance(config, Mapping):
-        raise InputError(f"expected a table of guideline settings, got {type(config).__name__}", file, key=prefix)
-    for key in config:
-        if key not in _TOP_KEYS:
-            raise InputError(f"unknown key; expected one of {', '.join(_TOP_KEYS)}", file, key=f"{prefix}.{key}")
-    header = {}
-    for key, default in (("name", "custom"), ("source", "user configuration")):
-        value = config.get(key, default)
-        if not isinstance(value, str) or not value.strip():
-            raise InputError(f"expected a non-empty text, got {value!r}", file, key=f"{prefix}.{key}")
-        header[key] = value
-    lines: list = []
-    include = config.get("include", [])
-    if isinstance(include, str):
-        include = [include]
-    if not isinstance(include, Sequence):
-        raise InputError(f"expected a list of default set names, got {include!r}", file, key=f"{prefix}.include")
-    for k, name in enumerate(include):
-        if name not in DEFAULT_GUIDELINES:
-            raise InputError(f"unknown default set {name!r}; expected one of {', '.join(DEFAULT_GUIDELINES)}",
-                             file, key=f"{prefix}.include[{k}]")
-        lines.extend(DEFAULT_GUIDELINES[name].lines)
-    for table, (cls, required, optional) in _TABLES.items():
-        entries = config.get(table, [])
-        if isinstance(entries, Mapping) or not isinstance(entries, Sequence) or isinstance(entries, str):
-            raise InputError("expected a list of tables (TOML [[...]] array of tables)", file,
-                             key=f"{prefix}.{table}")
-        for k, entry in enumerate(entries):
-            where = f"{prefix}.{table}[{k}]"
-            if not isinstance(entry, Mapping):
-                raise InputError(f"expected a table, got {entry!r}", file, key=where)
-            for key in entry:
-                if key not in required + optional:
-                    raise InputError(f"unknown key; expected {', '.join(required + optional)}", file,
-                                     key=f"{where}.{key}")
-            for key in required:
-                if key not in entry:
-                    what = " (the citation of the policy that sets the line)" if key == "source" else ""
-                    raise InputError(f"missing required key{what}", file, key=f"{where}.{key}")
-            try:
-                lines.append(cls(**dict(entry)))
-            except _FieldError as exc:
-                raise InputError(exc.detail, file, key=f"{where}.{exc.field}") from None
-    return GuidelineSet(lines=tuple(lines), **header)
+    from ..config.guidelines import read_guidelines
+
+    return read_guidelines(config, file=file, prefix=prefix)
 
 
 # --------------------------------------------------------------------------

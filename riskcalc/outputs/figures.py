@@ -200,6 +200,8 @@ def scenario_guidelines(scenario):
     from ..decision.guidelines import DEFAULT_GUIDELINES, GuidelineSet, from_config
 
     cfg = getattr(scenario, "guidelines", None)
+    if isinstance(cfg, GuidelineSet):  # validated when the scenario was loaded
+        return cfg
     if cfg:
         return from_config(cfg, file=getattr(scenario, "path", None))
     lines = tuple(ln for gs in DEFAULT_GUIDELINES.values() for ln in gs.lines)
