@@ -229,7 +229,7 @@ first_cost = 2.0e5
 
 def _settings(sc):
     return (sc.title, sc.seed, sc.units, sc.grid, sc.uncertainty, sc.checks, sc.outputs, sc.sensitivity,
-            sc.guidelines, sc.economics, sc.alternatives, sc.raw, sc.ensemble.size, sc.model.mode_names)
+            sc.guidelines, sc.economics, sc.alternatives, sc.raw, sc.ensemble.size, sc.model.failure_mode_names)
 
 
 @pytest.mark.parametrize("bom, crlf", [(True, False), (False, True), (True, True)], ids=["bom", "crlf", "bom+crlf"])
