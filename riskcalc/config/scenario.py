@@ -122,7 +122,7 @@ class Scenario:
     ensemble : HazardEnsemble
     mode_params : dict
         Explicit mode-curve parameters (empty: the largest log posterior).
-    model : RiskModel
+    model : ResponseChain
     credible_level : float
     grid, uncertainty, checks, outputs : dict
         The sections with their defaults filled.
@@ -136,6 +136,8 @@ class Scenario:
         to validate it.
     economics : EconomicSettings or None
         The ``[economics]`` section; None when the scenario has none.
+    structure : {"dam", "levee", "unspecified"}
+        The kind of structure (chooses the default reference lines).
     files : tuple of Path
         Every file read (scenario chain and tables).
     raw : dict
@@ -161,6 +163,7 @@ class Scenario:
     sensitivity: object
     alternatives: tuple
     economics: object
+    structure: str = "unspecified"
     files: tuple = ()
     raw: dict = field(default_factory=dict)
     file_hashes: dict = field(default_factory=dict)  # SHA-256 of every input as read, keyed by relative path
@@ -293,6 +296,10 @@ def load_scenario(path) -> Scenario:
     model = build_model(d, path, units, hz["variable"])
     select_factors(scenario_factors(model), sensitivity, path)
     check_plans(d, path, units, ens, mode, unc["draws_per_realization"], economics, alternatives)
+    # the grid (cheap): an ensemble that spans no range, a rating table under "refuse" that does not cover it
+    from ..risk.assess import build_grid
+
+    build_grid(ens, (model,), grid, mode)
     inputs = [Path(hz["ensemble"])]
     if model.rating is not None:
         inputs.append(Path(model.rating.source))
@@ -304,5 +311,5 @@ def load_scenario(path) -> Scenario:
     return Scenario(path=path, title=top["title"], description=top["description"], seed=top["seed"], units=units,
                     ensemble=ens, mode_params=mode, model=model, credible_level=hz["credible_level"], grid=grid,
                     uncertainty=unc, checks=checks, outputs=outputs, guidelines=guidelines, sensitivity=sensitivity,
-                    alternatives=alternatives, economics=economics, files=all_files, raw=d,
+                    alternatives=alternatives, economics=economics, structure=top["structure"], files=all_files, raw=d,
                     file_hashes=_hashes(all_files, path))

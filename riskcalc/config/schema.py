@@ -123,6 +123,8 @@ _NAMES = Field(str, nonblank=True, expect="a factor name")
 SCHEMA: dict[str, dict[str, Field]] = {
     "": {
         "title": Field(str, "untitled scenario"),
+        "structure": Field(str, "unspecified", choices=("dam", "levee", "unspecified"),
+                           expect="dam, levee or unspecified (chooses the default reference lines)"),
         "description": Field(str, ""),
         "seed": Field(int, 20240601, low=0, expect="an integer >= 0"),
         "base": Field(str, "", expect="the file name of another scenario"),
@@ -202,6 +204,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "checks": {
         "design_aep": Field(float, 0.01, low=0, high=1, low_open=True, high_open=True, expect=_PROB),
         "years": Field(int, 50, low=1, expect="a number of years >= 1"),
+        "crest_stage": Field(float, None, expect="the stage of the crest or top of levee, in the scenario's stage unit"),
     },
     "outputs": {
         "figures": Field(bool, True),
