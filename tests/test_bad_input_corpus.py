@@ -383,7 +383,7 @@ CASES = [
      r"scenario\.toml, key 'economics\.future\.consequences\.damage_multiplier\.distribution': 'uniform' is not "
      r"fixed, triangular or lognormal"),
     ("checks-misspelt-key", append("[checks]\ndesign_aep = 0.01\nyear = 50\n"),
-     r"scenario\.toml, key 'checks\.year': unknown key; expected one of design_aep, years"),
+     r"scenario\.toml, key 'checks\.year': unknown key; expected one of crest_stage, design_aep, years"),
     ("outputs-misspelt-key", append("[outputs]\nfigure = false\n"),
      r"scenario\.toml, key 'outputs\.figure': unknown key; expected one of figures, memo"),
     ("units-misspelt-key", sub('currency = "usd"', 'currency = "usd"\ncurency = "eur"'),

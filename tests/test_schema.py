@@ -39,7 +39,7 @@ def test_defaults_are_filled_as_documented():
     assert S.validate("grid", {}, F, "grid.") == {"points": 2000, "aep_max": 0.999, "aep_min": 1e-7,
                                                    "rule": "midpoint"}
     assert S.validate("uncertainty", {}, F) == {"draws_per_realization": 1, "hermite_nodes": 16, "workers": 0}
-    assert S.validate("checks", {}, F) == {"design_aep": 0.01, "years": 50}
+    assert S.validate("checks", {}, F) == {"design_aep": 0.01, "years": 50, "crest_stage": None}
 
 
 def test_an_integer_is_a_number_but_true_is_neither():
