@@ -366,6 +366,24 @@ class ChainOnPoints:
         ind = inc[..., None] >= lv  # (D, P, n, L)
         return np.einsum("dpn,dpnl,n->dpl", pf_nodes, ind, self.node_weights)
 
+    def fn_rows(self, masses, params: ResponseParameters, levels) -> np.ndarray:
+        """F-N of B draws: masses (B, P) against their response parameters -> F (B, L).
+
+        F_b(N) = Σ_p w[b, p] E_ε[P_f 1[L_inc >= N]] with the draw's own offsets, shifts, spreads and
+        life-loss factor: each (point, node) adds its probability w P_f to every level at or below its
+        incremental life loss (a weighted histogram over the levels, summed from the top).
+        """
+        w = np.asarray(masses, float)
+        lv = np.asarray(levels, float)
+        B, L = params.size, lv.size
+        pf = self._pf_at_nodes(params)  # (B, P, n)
+        inc = self.incremental_life_loss(params)  # (B, P, n)
+        prob = w[:, :, None] * pf * self.node_weights[None, None, :]
+        k = np.searchsorted(lv, inc, side="right")  # levels at or below the life loss: F(N_l) for l < k
+        flat = (np.arange(B)[:, None, None] * (L + 1) + k).ravel()
+        hist = np.bincount(flat, weights=prob.ravel(), minlength=B * (L + 1)).reshape(B, L + 1)
+        return np.cumsum(hist[:, :0:-1], axis=1)[:, ::-1]
+
     def _pf_at_nodes(self, p: ResponseParameters) -> np.ndarray:
         """System P_f at every draw, point and node, not yet averaged: (D, P, n)."""
         h = self.stage[None] + p.stage_offset[:, None, None]

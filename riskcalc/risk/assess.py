@@ -79,6 +79,21 @@ def _ratio(a, b):
     return a / b if b > 0 else (float("inf") if a > 0 else float("nan"))
 
 
+def _life_loss_range(on, chain):
+    """Smallest and largest incremental life loss the F-N table must cover: the nominal range on the grid,
+    widened by the spread of a life-loss factor (its 0.1 % and 99.9 % quantiles)."""
+    inc = on.incremental_life_loss()
+    pos = inc[inc > 0]
+    if pos.size == 0:
+        return 1.0, 1.0
+    lo, hi = float(pos.min()), float(pos.max())
+    for p in chain.uncertain.parameters:
+        if p.target == "life_loss_factor":
+            lo *= float(p.quantile(1e-3)) / p.nominal
+            hi *= float(p.quantile(1 - 1e-3)) / p.nominal
+    return max(lo, hi * 1e-6), hi
+
+
 def headline_figures(prop: Propagation, v_pred: dict, v_mode: dict, v_med: dict, v_nominal: dict) -> dict:
     """The three headline figures on every measure, with their ensemble statistics and standard errors.
 
@@ -96,17 +111,26 @@ def headline_figures(prop: Propagation, v_pred: dict, v_mode: dict, v_med: dict,
     return out
 
 
-def fn_curves(on, prop: Propagation, levels, m_mode, m_med, weights) -> FNCurve:
-    """F-N curves on the predictive, mode and median measures (nominal response, incremental life loss,
-    natural variability folded in), and the percentiles over realizations when they were kept."""
+def fn_curves(on, prop: Propagation, levels, m_mode, m_med) -> FNCurve:
+    """F-N curves of the incremental life loss, natural variability folded in.
+
+    The predictive F-N is the weighted mean of every draw's F-N, each with its own response and
+    consequence parameters, so that its area equals the predictive incremental ALL (the same draws);
+    the band is the draws' 5 / 50 / 95 % points. The mode and median curves use the nominal response,
+    like their headline figures. When the per-draw table is too large to keep, the predictive F-N falls
+    back to the nominal response (and the result says so in a note).
+    """
     from .integrate import point_masses
 
     FN = on.fn_integrand(levels)[0]
-    fn = dict(levels=levels, predictive=prop.point_masses_predictive @ FN,
-              mode=point_masses(m_mode, prop.rule) @ FN, median_curve=point_masses(m_med, prop.rule) @ FN)
-    if prop.fn_per_realization is not None:
-        q = weighted_quantile(prop.fn_per_realization, weights, [0.05, 0.5, 0.95])
+    fn = dict(levels=levels, mode=point_masses(m_mode, prop.rule) @ FN,
+              median_curve=point_masses(m_med, prop.rule) @ FN)
+    if prop.fn_per_draw is not None:
+        fn["predictive"] = prop.weights @ prop.fn_per_draw
+        q = weighted_quantile(prop.fn_per_draw, prop.weights, [0.05, 0.5, 0.95])
         fn.update(p05=q[0], p50=q[1], p95=q[2])
+    else:
+        fn["predictive"] = prop.point_masses_predictive @ FN
     return FNCurve(**fn)
 
 
@@ -217,7 +241,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     k = int(draws_per_realization or sc.uncertainty["draws_per_realization"]) if chain.has_knowledge_uncertainty else 1
     nw = workers or sc.uncertainty.get("workers") or default_workers()
     on_mid = chain.on(evaluation_points(grid, log_spacing, "midpoint"))
-    levels = fn_levels(max(1.0, on_mid.max_incremental_life_loss()))
+    levels = fn_levels(*_life_loss_range(on_mid, chain))
     prop = propagate(ens, chain, grid, seed=sc.seed, draws_per_realization=k, rule=rule, log_spacing=log_spacing,
                      workers=nw, fn_levels=levels, progress=progress)
     curves = hazard_curves(ens, grid, level=sc.credible_level, aep_max=sc.grid["aep_max"],
@@ -231,7 +255,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     v_pred = v_nominal if k == 1 and not chain.has_knowledge_uncertainty else dict(zip(names, prop.weights @ prop.values))
     headline = headline_figures(prop, v_pred, v_mode, v_med, v_nominal)
     on = chain.on(prop.points)
-    fn = fn_curves(on, prop, levels, m_mode, m_med, ens.weights)
+    fn = fn_curves(on, prop, levels, m_mode, m_med)
     crest = crest_check(ens, chain, curves, sc.checks["design_aep"], sc.checks["years"])
     truncation, extrapolation, tail_warnings = tail_checks(prop, chain, grid, ens.quantity, v_nominal,
                                                            sc.units.get("stage", ""))
@@ -268,8 +292,14 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     lin = float(np.max(np.abs(nom_mean - base) / np.maximum(np.abs(base), 1e-300)))
     notes.append("linearity: the risk on the predictive masses equals the weighted mean of the per-realization "
                  f"risks (nominal response; largest relative difference {lin:.1e})")
-    notes.append("F-N uses the nominal response and the incremental life loss (given breach minus given no "
-                 "breach), with natural variability of stage folded in")
+    if prop.fn_per_draw is not None:
+        notes.append("F-N uses the incremental life loss (given breach minus given no breach) with natural "
+                     "variability of stage folded in; the predictive F-N and its band include every draw's response "
+                     "and consequence parameters, the mode and median curves the nominal response")
+    else:
+        notes.append("F-N uses the incremental life loss with natural variability folded in and the nominal "
+                     "response: the per-draw F-N table was too large to keep, so the predictive F-N omits the "
+                     "sampled response uncertainty")
     return RiskResult(scenario=sc, grid=grid, curves=curves, propagation=prop, cell_aep=cell_aep,
                       values_predictive=v_pred, values_mode=v_mode, values_median=v_med, headline=headline, fn=fn,
                       crest=crest, truncation=truncation, extrapolation=extrapolation, ensemble_size=size,

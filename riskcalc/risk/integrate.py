@@ -89,12 +89,24 @@ def point_aep(aep_nodes, rule="midpoint") -> np.ndarray:
     return np.concatenate([np.sqrt(np.maximum(p[:-1] * p[1:], 0)), p[-1:]])
 
 
-def fn_levels(max_n, per_decade=12):
-    """Life-loss levels N for an F-N table: 1 and log-spaced up to ``max_n``."""
-    if not max_n >= 1:
+def fn_levels(min_n, max_n=None, per_decade=12):
+    """Life-loss levels N of an F-N table: log-spaced from the smallest N that occurs to the largest.
+
+    ``fn_levels(max_n)`` (one argument) starts at 1. The levels include 1 when it lies in the range,
+    and both ends.
+    """
+    if max_n is None:
+        min_n, max_n = 1.0, min_n
+    if not (max_n > 0 and min_n > 0):
         return np.array([1.0])
+    min_n = min(min_n, max_n)
+    lo = np.floor(np.log10(min_n) * per_decade) / per_decade
     top = np.ceil(np.log10(max_n) * per_decade) / per_decade
-    return np.unique(np.concatenate([10 ** np.arange(0, top + 1e-9, 1 / per_decade), [max_n]]))
+    exps = np.arange(lo, top + 1e-9, 1 / per_decade)
+    levels = 10 ** exps
+    levels = levels[(levels >= min_n * (1 - 1e-12)) & (levels <= max_n * (1 + 1e-12))]
+    extra = [min_n, max_n] + ([1.0] if min_n <= 1.0 <= max_n else [])
+    return np.unique(np.concatenate([levels, extra]))
 
 
 def chance_in_years(aep, years):

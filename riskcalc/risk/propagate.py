@@ -52,6 +52,9 @@ class Propagation:
     fn_levels : ndarray (L,)
     fn_per_realization : ndarray (R, L) or None
         F-N of every realization (nominal response), when it fits in memory.
+    fn_per_draw : ndarray (D, L) or None
+        F-N of every draw with its own response parameters (aligned with ``weights``), when it fits in
+        memory; without knowledge uncertainty it is ``fn_per_realization``.
     nominal_values : ndarray (R, K)
         Risk of every realization with the nominal response (equals ``values`` without knowledge
         uncertainty); the linearity identity holds for these.
@@ -73,6 +76,7 @@ class Propagation:
     n_chunks: int
     draws_per_realization: int
     nominal_values: np.ndarray | None = None
+    fn_per_draw: np.ndarray | None = None
 
     def column(self, name):
         return self.values[:, self.names.index(name)]
@@ -137,7 +141,7 @@ def propagate(ens, chain, grid, *, seed=None, draws_per_realization=1, rule="mid
     ss = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
     streams = ss.spawn(len(chunks))
     levels = np.asarray(fn_levels, float) if fn_levels is not None else None
-    keep_fn = levels is not None and R * levels.size <= 2e7
+    keep_fn = levels is not None and R * k * levels.size <= 2e7
     fn_matrix = on.fn_integrand(levels)[0] if keep_fn else None
 
     def work(i):
@@ -147,15 +151,21 @@ def propagate(ens, chain, grid, *, seed=None, draws_per_realization=1, rule="mid
         m = point_masses(mc, rule)
         fn = m @ fn_matrix if keep_fn else None
         nominal = m @ G  # (c, K): per-realization risks with the nominal response
+        fn_draws = None
         if not knowledge:
             vals = nominal[:, None, :]  # (c, 1, K)
+            fn_draws = None if fn is None else fn[:, None, :]
         else:
             rng = np.random.default_rng(streams[i])
             c = m.shape[0]
             vals = np.empty((c, k, K))
+            fn_draws = np.empty((c, k, levels.size)) if keep_fn else None
             for rep in range(k):
-                vals[:, rep, :] = on.risk(m, chain.uncertain.sample(rng, c), names)
-        return mbar, vals, fn, nominal
+                params = chain.uncertain.sample(rng, c)
+                vals[:, rep, :] = on.risk(m, params, names)
+                if keep_fn:
+                    fn_draws[:, rep, :] = on.fn_rows(m, params, levels)
+        return mbar, vals, fn, nominal, fn_draws
 
     results = map_in_threads(work, range(len(chunks)), workers, progress)
     mbar = np.zeros(Q)
@@ -163,13 +173,17 @@ def propagate(ens, chain, grid, *, seed=None, draws_per_realization=1, rule="mid
         mbar += r[0]
     vals = np.concatenate([r[1] for r in results], axis=0) if results else np.empty((0, 1, K))
     fn = np.concatenate([r[2] for r in results], axis=0) if keep_fn else None
+    fn_draws = np.concatenate([r[4] for r in results], axis=0) if keep_fn else None
     nominal = np.concatenate([r[3] for r in results], axis=0) if results else np.empty((0, K))
     kk = vals.shape[1]
     values = vals.reshape(R * kk, K)
+    if fn_draws is not None:
+        fn_draws = fn_draws.reshape(R * kk, levels.size)
     weights = np.repeat(ens.weights / kk, kk)
     realization = np.repeat(np.arange(R), kk)
     pbar = np.cumsum(mbar[::-1])[::-1]  # p̄(x_j) = Σ_{i>=j} m̄_i
     return Propagation(names=names, values=values, weights=weights, realization=realization, aep_predictive=pbar,
                        masses_predictive=mbar, points=pts, rule=rule, integrands=G,
                        fn_levels=levels if levels is not None else np.array([]), fn_per_realization=fn,
-                       n_chunks=len(chunks), draws_per_realization=kk, nominal_values=nominal)
+                       n_chunks=len(chunks), draws_per_realization=kk, nominal_values=nominal,
+                       fn_per_draw=fn_draws)
