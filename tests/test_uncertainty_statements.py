@@ -149,3 +149,33 @@ def test_mcmc_ordered_ensemble_reports_its_autocorrelation(scenario_factory):
     assert s["autocorrelation_time"]["annual_failure_probability"] > 3
     plain = scenario_factory(folder="plain", toml_extra="[grid]\npoints = 200\n")
     assert assess(load_scenario(plain)).summary()["ensemble_size"]["assumes_independent_members"] is True
+
+
+def test_crest_stage_check_reads_the_real_crest(scenario_factory):
+    # [checks] crest_stage: the AEP of reaching it on the predictive curve is the mean over realizations of
+    # their own AEPs (linearity), larger than on the mode curve here; without natural variability it is the
+    # predictive AEP of the rating's discharge at the crest (direct evaluation of the ensemble)
+    from riskcalc.risk.integrate import chance_in_years
+
+    path = scenario_factory(folder="crest", toml_extra="[grid]\npoints = 400\n[checks]\ncrest_stage = 6.5\n")
+    sc = load_scenario(path)
+    res = assess(sc)
+    c = res.crest_stage
+    q = sc.model.rating.discharge_at(np.array([6.5]))[0]
+    assert c.quantity_at_crest == pytest.approx(q, rel=1e-9)
+    p_direct = sc.ensemble.weights @ sc.ensemble.aep(np.array([q]))[:, 0]
+    assert c.aep_predictive == pytest.approx(p_direct, rel=1e-9)
+    members = sc.ensemble.aep(np.array([q]))[:, 0]
+    assert c.chance_in_years_predictive == pytest.approx(sc.ensemble.weights @ chance_in_years(members, 50),
+                                                         rel=1e-9)
+    assert c.ratio_predictive_to_mode == pytest.approx(c.aep_predictive / c.aep_mode)
+    s = res.summary()["mode_understatement"]
+    assert s["crest_stage_check"]["crest_stage"] == 6.5 and "crest_check" in s
+    # with natural variability of stage the crest is reached more often than the bare rating says
+    path2 = scenario_factory(folder="crest2", toml_extra="[grid]\npoints = 400\n[checks]\ncrest_stage = 6.5\n")
+    path2.write_text(path2.read_text().replace('[rating]\ntable = "rating.csv"\n',
+                                               '[rating]\ntable = "rating.csv"\nnatural_sd = 0.4\n'))
+    res2 = assess(load_scenario(path2))
+    assert res2.crest_stage.aep_predictive > c.aep_predictive
+    # the per-realization AEPs (used for the n-year chance) average to the predictive AEP
+    assert res2.crest_stage.chance_in_years_predictive <= chance_in_years(res2.crest_stage.aep_predictive, 50)

@@ -16,6 +16,7 @@ def summary_dict(result) -> dict:
     out = {k: h.as_dict() for k, h in r.headline.items()}
     out["mode_understatement"] = {k: r.headline[k].ratio_predictive_to_mode for k, _, _ in HEADLINES}
     out["mode_understatement"]["crest_check"] = r.crest.as_dict()
+    out["mode_understatement"]["crest_stage_check"] = None if r.crest_stage is None else r.crest_stage.as_dict()
     out["incremental"] = {k: {"predictive": r.values_predictive[n], "mode": r.values_mode[n],
                               "median_curve": r.values_median[n]}
                           for k, n in (("expected_annual_damage", "ead_incremental"),

@@ -14,7 +14,7 @@ import numpy as np
 
 from ..io import to_plain
 
-__all__ = ["HEADLINES", "EnsembleStats", "Headline", "DesignFloodCheck", "CrestCheck", "Truncation",
+__all__ = ["HEADLINES", "EnsembleStats", "Headline", "DesignFloodCheck", "CrestCheck", "CrestStageCheck", "Truncation",
            "Extrapolation", "EnsembleSize", "FNCurve", "RiskResult", "weighted_summary"]
 
 #: Headline outputs: summary key, integrand name, unit kind.
@@ -151,6 +151,38 @@ class DesignFloodCheck(_Record):
 
 
 @dataclass(frozen=True)
+class CrestStageCheck(_Record):
+    """How often the real crest (or top of levee) is reached, on every measure.
+
+    Attributes
+    ----------
+    crest_stage : float
+        [stage units], from ``[checks] crest_stage``.
+    quantity_at_crest : float
+        The hazard quantity whose rating stage is the crest [hazard units].
+    aep_predictive, aep_mode, aep_median_curve : float
+        Annual probability that the peak stage reaches the crest, with the rating's natural variability
+        and the nominal response (nominal rating offset).
+    ratio_predictive_to_mode : float
+    years : int
+    chance_in_years_predictive : float
+        Σ_r w_r [1 − (1 − p_r)^n] over the realizations' own AEPs of the crest.
+    chance_in_years_mode : float
+        1 − (1 − p_mode)^n.
+    """
+
+    crest_stage: float
+    quantity_at_crest: float
+    aep_predictive: float
+    aep_mode: float
+    aep_median_curve: float
+    ratio_predictive_to_mode: float
+    years: int
+    chance_in_years_predictive: float
+    chance_in_years_mode: float
+
+
+@dataclass(frozen=True)
 class EnsembleSize(_Record):
     """How many independent realizations the ensemble is worth.
 
@@ -257,6 +289,10 @@ class RiskResult:
         Keyed by the summary keys of :data:`HEADLINES`.
     fn : FNCurve
     crest : CrestCheck
+        The design flood of the mode and median curves read on the predictive curve (a hypothetical crest
+        set at that flood).
+    crest_stage : CrestStageCheck or None
+        The real crest, when the scenario gives ``[checks] crest_stage``.
     truncation : Truncation
     extrapolation : Extrapolation
     ensemble_size : EnsembleSize
@@ -287,6 +323,7 @@ class RiskResult:
     notes: list
     provenance: dict
     sensitivity: dict | None = None
+    crest_stage: CrestStageCheck | None = None
     extras: dict = field(default_factory=dict)
 
     def tables(self) -> dict:
