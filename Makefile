@@ -21,6 +21,7 @@ test: $(BIN)/.installed
 bench: $(BIN)/.installed
 	$(BIN)/python benchmarks/bench_hazard.py
 	$(BIN)/python benchmarks/bench_chain.py
+	$(BIN)/python benchmarks/bench_sensitivity.py
 
 clean:
 	rm -rf $(VENV) out

@@ -109,7 +109,7 @@ def case_grid(R, Q):
     out = {"case": "smaller grid accuracy", "R": R, "reference_Q": 20000, "points": {}}
     for q in (250, 500, 1000, 2000):
         h = assess(sc, grid_points=q).headline
-        t = best_of(lambda: assess(sc, grid_points=q), repeat=2)
+        t = best_of(lambda q=q: assess(sc, grid_points=q), repeat=2)
         out["points"][q] = {
             "seconds": t,
             "afp_rel_error": abs(h["annual_failure_probability"]["predictive"] /
@@ -166,13 +166,6 @@ def main(quick=False):
     print(json.dumps({**small, "case": "riskcalc full chain on a 250-point grid (AFP, EAD within 0.1 % of 20,000)"}))
     if not quick:
         growth()
-    sens = HERE / "bench_sensitivity.py"
-    if sens.exists() and not quick:
-        import subprocess
-
-        out = subprocess.run([sys.executable, str(sens)], capture_output=True, text=True)
-        for line in out.stdout.strip().splitlines():
-            print(line)
     print(json.dumps({"case": "ratios", "chain_over_floor": res["chain"]["seconds"] / res["floor"]["seconds"],
                       "chain_one_thread_over_floor": res["chain1"]["seconds"] / res["floor"]["seconds"],
                       "loop_over_chain": res["loop"]["seconds"] / res["chain"]["seconds"],

@@ -18,8 +18,6 @@ __version__ = "0.1.0"
 __all__ = ["__version__", "load_scenario", "assess", "run", "read_ensemble", "hazard_curves", "InputError"]
 
 
-# the submodule riskcalc.assess shares its name with the function: importing the function here,
-# after the submodule has loaded, keeps `riskcalc.assess` the function
 from .risk.assess import assess  # noqa: E402
 from .errors import InputError  # noqa: E402
 from .hazard import hazard_curves, read_ensemble  # noqa: E402

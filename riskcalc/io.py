@@ -11,6 +11,12 @@ Units travel in column names: ``discharge_m3s``, ``stage_ft``,
 
 from __future__ import annotations
 
+import contextlib
+import json
+import os
+import shutil
+import tempfile
+
 import csv
 import hashlib
 import math
@@ -233,11 +239,6 @@ def read_table(path, *, what="table", sheet=None) -> Table:
 # ----------------------------------------------------------------------
 # Results out
 # ----------------------------------------------------------------------
-import contextlib
-import json
-import os
-import shutil
-import tempfile
 
 
 def unit_suffix(unit: str | None) -> str:

@@ -6,7 +6,7 @@ import pandas as pd
 import pytest
 
 from riskcalc.errors import InputError
-from riskcalc.portfolio import collect_scenarios, run_portfolio
+from riskcalc.workflows import collect_scenarios, run_portfolio
 
 
 @pytest.fixture

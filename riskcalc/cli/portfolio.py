@@ -27,7 +27,7 @@ def portfolio(
     curves, their ratios, truncation, status and error) and each scenario's outputs in its own folder.
     A scenario that fails is listed with its error; the others still run.
     """
-    from ..portfolio import run_portfolio
+    from ..workflows import run_portfolio
     from ..progress import progress_bar
 
     with progress_bar("scenarios", enabled=not quiet) as update:

@@ -11,6 +11,8 @@ the key (and row and column for tables).
 
 from __future__ import annotations
 
+from typing import Any
+
 import copy
 import math
 from dataclasses import dataclass, field
@@ -151,18 +153,18 @@ class Scenario:
     description: str
     seed: int
     units: dict
-    ensemble: object
+    ensemble: Any
     mode_params: dict
-    model: object
+    model: Any
     credible_level: float
     grid: dict
     uncertainty: dict
     checks: dict
     outputs: dict
-    guidelines: object
-    sensitivity: object
+    guidelines: Any
+    sensitivity: Any
     alternatives: tuple
-    economics: object
+    economics: Any
     structure: str = "unspecified"
     files: tuple = ()
     raw: dict = field(default_factory=dict)

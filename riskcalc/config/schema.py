@@ -105,9 +105,9 @@ class Field:
     pow2: bool = False
     even: bool = False
     nonblank: bool = False
-    items: "Field | None" = None
+    items: Field | None = None
     table: str | None = None
-    values: "Field | None" = None
+    values: Field | None = None
     min_items: int = 0
     index_base: int = 1
     one_or_many: bool = False

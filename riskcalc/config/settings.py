@@ -98,7 +98,7 @@ def read_settings(raw, file=None, *, default_seed: int = 1, factors=None, overri
         vals["n_max"] = max(16384, n)
     elif vals["n_max"] < n:
         raise InputError(f"{vals['n_max']} is below n = {n}; expected a power of two >= n", file, key=keys["n_max"])
-    seen = {}
+    seen: dict = {}
     for g, members in vals["groups"].items():
         for m in members:
             if m in seen:

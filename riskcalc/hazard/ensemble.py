@@ -108,7 +108,7 @@ class HazardEnsemble:
             return self.quantity == "discharge"
         return FAMILIES[self.family].log_quantity or self.quantity == "discharge"
 
-    def subset(self, rows) -> "HazardEnsemble":
+    def subset(self, rows) -> HazardEnsemble:
         """The realizations ``rows`` (a slice or index array), weights kept as they are (not renormalized)."""
         idx = np.arange(self.size)[rows]
         return HazardEnsemble(
@@ -270,7 +270,8 @@ def read_curve_table(path, *, sheet=None, unit=None) -> HazardEnsemble:
             raise InputError("empty realization label", path, row=row, column="realization")
     w_all = table.numbers("weight", nonnegative=True, what="a weight >= 0") if table.has("weight") else None
     lp_all = table.numbers("log_posterior") if table.has("log_posterior") else None
-    order, groups = [], {}
+    order: list = []
+    groups: dict = {}
     for i, lab in enumerate(labels):
         if lab not in groups:
             groups[lab] = []

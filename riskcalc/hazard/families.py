@@ -37,6 +37,8 @@ References
 
 from __future__ import annotations
 
+from typing import Any
+
 from dataclasses import dataclass
 
 import numpy as np
@@ -353,8 +355,8 @@ class Family:
     name: str
     parameters: tuple[str, ...]
     positive: tuple[str, ...]  # parameters that must be > 0
-    aep: object
-    quantile: object
+    aep: Any
+    quantile: Any
     log_quantity: bool  # parameters describe log10 of the quantity
     description: str
 

@@ -7,7 +7,8 @@ monotone discharge-stage tables.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from scipy.interpolate import PchipInterpolator
@@ -81,6 +82,8 @@ class RatingCurve:
     stage: np.ndarray
     extrapolation: str = "extend"
     source: str | None = None
+    _lq: np.ndarray = field(init=False, repr=False, compare=False)
+    _pchip: Any = field(init=False, repr=False, compare=False)
 
     def __post_init__(self):
         q, h = np.asarray(self.discharge, float), np.asarray(self.stage, float)
@@ -92,7 +95,7 @@ class RatingCurve:
             raise ValueError("rating stages must strictly increase with discharge")
         if self.extrapolation not in EXTRAPOLATION_RULES:
             raise ValueError(f"extrapolation '{self.extrapolation}' is not one of {EXTRAPOLATION_RULES}")
-        object.__setattr__(self, "_lq", np.log10(q))
+        object.__setattr__(self, "_lq", np.log10(q))  # derived, set once
         object.__setattr__(self, "_pchip", PchipInterpolator(np.log10(q), h, extrapolate=False))
 
     @property

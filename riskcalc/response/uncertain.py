@@ -16,11 +16,14 @@ and everything that needs them is derived from it:
 Several parameters may act on one target: stage offsets and failure-mode
 shifts add, spread and consequence factors multiply. Adding an uncertain
 parameter to the chain is one :class:`UncertainParameter` in the registry;
-adding a new *kind* of scenario input is one builder function below (and one
-entry in :data:`KINDS`).
+adding a new *kind* of scenario input is one builder function below, its key
+in the schema (:mod:`riskcalc.config.schema`) and one line in
+:func:`riskcalc.config.build.build_model` that appends it.
 """
 
 from __future__ import annotations
+
+from typing import Any
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -28,7 +31,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-__all__ = ["TARGETS", "UncertainParameter", "ResponseParameters", "UncertainInputs", "KINDS", "rating_offset",
+__all__ = ["TARGETS", "UncertainParameter", "ResponseParameters", "UncertainInputs", "SOURCES", "rating_offset",
            "fragility_shift", "fragility_spread", "consequence_factor"]
 
 #: Where a parameter acts, and how several parameters on one target combine.
@@ -39,6 +42,8 @@ TARGETS = {
     "damage_factor": "multiply",  # [-], multiplies every damage value
     "life_loss_factor": "multiply",  # [-], multiplies every life-loss value
 }
+#: Sources of uncertainty a parameter belongs to (the rows of the mean-mode gap by source, after "hazard").
+SOURCES = ("rating", "fragility", "consequences")
 #: Neutral value of each way of combining.
 _NEUTRAL = {"add": 0.0, "multiply": 1.0}
 #: Probabilities are clipped to [eps, 1 - eps] before the quantile of an unbounded distribution.
@@ -71,13 +76,15 @@ class UncertainParameter:
     name: str
     source: str
     target: str
-    distribution: object
+    distribution: Any
     nominal: float
     failure_mode: int | None = None
     description: str = ""
     units: str = ""
 
     def __post_init__(self):
+        if self.source not in SOURCES:
+            raise ValueError(f"unknown source '{self.source}'; expected one of {', '.join(SOURCES)}")
         if self.target not in TARGETS:
             raise ValueError(f"unknown target '{self.target}'; expected one of {', '.join(TARGETS)}")
         if self.target.startswith("fm_") and self.failure_mode is None:
@@ -256,6 +263,3 @@ def consequence_factor(kind: str, distribution: str, *, low=1.0, mode=1.0, high=
     raise ValueError(f"'{distribution}' is not triangular or lognormal")
 
 
-#: The kinds of uncertain input a scenario can declare: kind -> builder.
-KINDS = {"rating_offset": rating_offset, "fragility_shift": fragility_shift, "fragility_spread": fragility_spread,
-         "consequence_factor": consequence_factor}

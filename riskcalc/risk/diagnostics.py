@@ -1,7 +1,7 @@
 """Diagnostics of a risk run: the warnings and notes that say where a figure may mislead.
 
-Each check is a small pure function returning a list of messages; :func:`run_warnings` collects
-them. Thresholds are module constants so that the docs and tests can name them.
+Each check is a small pure function returning a list of messages;
+:func:`riskcalc.risk.assess.assess` adds them up in a fixed order. Thresholds are module constants so that the docs and tests can name them.
 """
 
 from __future__ import annotations

@@ -7,6 +7,8 @@ with the same names). :class:`RiskResult` holds them with the propagation and th
 
 from __future__ import annotations
 
+from typing import Any
+
 import dataclasses
 from dataclasses import dataclass, field
 
@@ -304,10 +306,10 @@ class RiskResult:
     extras : dict
     """
 
-    scenario: object
+    scenario: Any
     grid: np.ndarray
-    curves: object
-    propagation: object
+    curves: Any
+    propagation: Any
     cell_aep: np.ndarray
     values_predictive: dict
     values_mode: dict

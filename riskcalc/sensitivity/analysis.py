@@ -70,7 +70,7 @@ class SensitivityReport:
 
     def frame(self) -> pd.DataFrame:
         """Tidy Sobol' table: output, factor, source, S1, S1_conf, ST, ST_conf, n_base_samples, conf_level."""
-        src = {}
+        src: dict = {}
         for f in self.factors:
             key = f.group or f.name
             src.setdefault(key, [])

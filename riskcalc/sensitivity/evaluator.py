@@ -16,6 +16,8 @@ of threads).
 
 from __future__ import annotations
 
+from typing import Any
+
 import time
 from dataclasses import dataclass
 
@@ -63,8 +65,8 @@ class RiskDriver:
     precompute_seconds : float
     """
 
-    chain: object
-    on: object
+    chain: Any
+    on: Any
     grid: np.ndarray
     rule: str
     masses: np.ndarray

@@ -12,6 +12,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 from ..errors import InputError
+from ..response.uncertain import SOURCES as RESPONSE_SOURCES
 from ..response.uncertain import UncertainParameter
 from .salib import Factor
 
@@ -25,7 +26,7 @@ MORRIS_TAIL = 1e-3
 
 
 #: Sources of uncertainty, in the order of the gap table.
-SOURCES = ("hazard", "rating", "fragility", "consequences")
+SOURCES = ("hazard",) + RESPONSE_SOURCES
 
 
 

@@ -76,6 +76,8 @@ References
 
 from __future__ import annotations
 
+from typing import Any
+
 import math
 import operator
 import warnings
@@ -656,7 +658,7 @@ class ConvergenceResult:
         (or ``warn_width``) at the last N, plus a line when not converged.
     """
 
-    result: object
+    result: Any
     n: int
     converged: bool
     target_width: float
