@@ -196,7 +196,7 @@ def test_warns_on_extrapolation_beyond_rating_table(scenario_factory, tmp_path):
     # the table stops at 1,000 m3/s (stage 4) but the breach median is at stage 5
     res = run(scenario_factory, tmp_path, "ex", rating="discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,4.0\n")
     assert res.extrapolation["share_of_afp_beyond_rating_table"] > 0.5
-    assert any("above the rating table (1000)" in w and "extrapolated" in w for w in res.warnings)
+    assert any("above the rating table (1000 m³/s)" in w and "extrapolated" in w for w in res.warnings)
 
 
 def test_warns_on_truncation_above_grid(scenario_factory, tmp_path):

@@ -202,7 +202,8 @@ def crest_stage_check(ens, chain, curves, crest: float, years: int) -> CrestStag
                            chance_in_years_mode=float(chance_in_years(mode, years)))
 
 
-def tail_checks(prop: Propagation, chain, grid, quantity: str, totals: dict, stage_unit: str = ""):
+def tail_checks(prop: Propagation, chain, grid, quantity: str, totals: dict, stage_unit: str = "",
+                discharge_unit: str = ""):
     """Truncation above and below the grid, and extrapolation beyond the rating table, with their warnings."""
     names, G = prop.names, prop.integrands
     m_pred = prop.masses_predictive
@@ -220,7 +221,7 @@ def tail_checks(prop: Propagation, chain, grid, quantity: str, totals: dict, sta
         beyond = prop.points > top
         share = float((w[beyond] * G[beyond, names.index("afp")]).sum() / afp) if afp > 0 else 0.0
         aep_beyond = float(m_pred[evaluation_points(grid, True, "midpoint") > top].sum())
-        warns += dg.extrapolation_warnings(aep_beyond, share, top)
+        warns += dg.extrapolation_warnings(aep_beyond, share, top, discharge_unit)
     # consequences are held constant above the consequence table's last stage
     c_top = float(chain.consequences.stage[-1])
     above = chain.stage_at(prop.points) > c_top
@@ -287,7 +288,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     fn = fn_curves(on, prop, levels, m_mode, m_med)
     crest = crest_check(ens, chain, curves, sc.checks["design_aep"], sc.checks["years"])
     truncation, extrapolation, tail_warnings = tail_checks(prop, chain, grid, ens.quantity, v_nominal,
-                                                           sc.units.get("stage", ""))
+                                                           sc.units.get("stage", ""), sc.units.get("discharge", ""))
     size = ensemble_size(ens, prop)
     crest_stage = None
     if sc.checks.get("crest_stage") is not None:
@@ -307,7 +308,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
                 + dg.grid_bottom_warnings(prop.integrands, names, v_nominal, truncation.aep_below_grid)
                 + dg.always_failing_warnings(prop.integrands[:, names.index("afp")])
                 + dg.mode_outside_band_warnings(x_mode, lo_b, hi_b, sc.checks["design_aep"], ens.quantity,
-                                                sc.credible_level))
+                                                sc.credible_level, ens.unit or ""))
     notes = [curves.mode_note]
     if size.assumes_independent_members:
         notes.append("the Monte Carlo standard errors treat the ensemble's members as independent draws (the "

@@ -26,6 +26,13 @@ CONSEQUENCE_WARN = 0.01
 ESS_WARN = 200
 
 
+def _unit(code) -> str:
+    from ..outputs.labels import unit_text
+
+    u = unit_text(code) if code else ""
+    return f" {u}" if u else ""
+
+
 def _words(key):
     return key.replace("_", " ")
 
@@ -59,10 +66,10 @@ def truncation_warnings(tail: dict, totals: dict, aep_above_grid: float) -> list
     return out
 
 
-def extrapolation_warnings(aep_beyond: float, share: float, top: float) -> list:
+def extrapolation_warnings(aep_beyond: float, share: float, top: float, unit: str = "") -> list:
     if aep_beyond > 0 and share > EXTRAPOLATION_WARN:
         return [f"{100 * share:.1f} % of the annual failure probability comes from discharges above the rating table "
-                f"({top:g}), where stage is extrapolated (rating.extrapolation = \"extend\")"]
+                f"({top:g}{_unit(unit)}), where stage is extrapolated (rating.extrapolation = \"extend\")"]
     return []
 
 
@@ -90,7 +97,7 @@ def consequence_table_warnings(shares: dict, top_stage: float, stage_unit: str) 
     for key, s in shares.items():
         if s > CONSEQUENCE_WARN:
             out.append(f"{100 * s:.1f} % of the {_words(key)} comes from stages above the consequence table's last "
-                       f"stage ({top_stage:g} {stage_unit}), where consequences are held constant; extend the table")
+                       f"stage ({top_stage:g}{_unit(stage_unit)}), where consequences are held constant; extend the table")
     return out
 
 
@@ -111,8 +118,9 @@ def always_failing_warnings(pf) -> list:
     return []
 
 
-def mode_outside_band_warnings(x_mode, lo_b, hi_b, design_aep, quantity, level) -> list:
+def mode_outside_band_warnings(x_mode, lo_b, hi_b, design_aep, quantity, level, unit: str = "") -> list:
     if not lo_b <= x_mode <= hi_b:
-        return [f"the mode curve's {design_aep:g}-AEP {quantity} ({x_mode:.4g}) lies outside the ensemble's "
-                f"{round(100 * level)} % band ({lo_b:.4g} to {hi_b:.4g}); check the explicit mode parameters"]
+        u = _unit(unit)
+        return [f"the mode curve's {design_aep:g}-AEP {quantity} ({x_mode:.4g}{u}) lies outside the ensemble's "
+                f"{round(100 * level)} % band ({lo_b:.4g} to {hi_b:.4g}{u}); check the explicit mode parameters"]
     return []
