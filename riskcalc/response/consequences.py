@@ -57,11 +57,6 @@ class ConsequenceCurves:
                                  self.life_loss_breach * life_loss, self.life_loss_no_breach * life_loss,
                                  currency=self.currency, source=self.source)
 
-    @property
-    def has_life_loss(self) -> bool:
-        return bool(np.any(self.life_loss_breach > 0) or np.any(self.life_loss_no_breach > 0))
-
-
 def read_consequence_table(path, *, stage_unit=None, currency=None, what="consequence table"):
     """Read a consequence table (see the module docstring for its columns).
 

@@ -98,10 +98,6 @@ class RatingCurve:
         object.__setattr__(self, "_lq", np.log10(q))  # derived, set once
         object.__setattr__(self, "_pchip", PchipInterpolator(np.log10(q), h, extrapolate=False))
 
-    @property
-    def q_range(self):
-        return float(self.discharge[0]), float(self.discharge[-1])
-
     def stage_at(self, q) -> np.ndarray:
         """Stage at discharges ``q`` (any shape). Outside the table: the end segments, linear in log10 q."""
         q = np.asarray(q, float)
