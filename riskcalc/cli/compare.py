@@ -44,26 +44,22 @@ def ranking_lines(comparison) -> list[str]:
 
 def reference_line_lines(comparison) -> list[str]:
     """Each plan's position against the reference lines, per condition year (not discounted)."""
-    from ..config.decision import BASE_NAME
-    from ..outputs.comparison import _lines_note, position_text, without_project
+    from ..outputs.comparison import _by_year, _lines_note, position_text
 
-    plans = [(BASE_NAME, without_project(comparison)["condition_years"])]
-    plans += [(n, comparison.figures[n]["condition_years"]) for n in comparison.ranking["predictive"]]
     lines = ["Reference lines per condition year (AFP and life loss not discounted; share = weighted share of the "
              "draws above the line):", _lines_note(comparison)]
-    for name, years in plans:
-        for y in years:
-            cnt = y["reference_lines_counts"]
-            head = (f"  {name}, {_year(y['year'])}: AFP {fmt_num(y['afp_per_yr']['predictive'])} per year, "
-                    f"ALL {fmt_num(y['all_lives_per_yr']['predictive'])} lives/yr")
-            if "all_reduction_lives_per_yr" in y:
-                head += f" (reduction {fmt_num(y['all_reduction_lives_per_yr']['predictive'])})"
-            head += (f"; above {cnt['predictive']['above']} of {cnt['lines_assessed']} lines (mode curve: "
-                     f"{cnt['mode']['above']})")
-            lines.append(head)
-            for k in y["reference_lines"]:
-                if k["kind"] != "individual_risk":
-                    lines.append(f"      {k['line']}: {position_text(k)}")
+    for y, name in _by_year(comparison):
+        cnt = y["reference_lines_counts"]
+        head = (f"  {name}, {_year(y['year'])}: AFP {fmt_num(y['afp_per_yr']['predictive'])} per year, "
+                f"ALL {fmt_num(y['all_lives_per_yr']['predictive'])} lives/yr")
+        if "all_reduction_lives_per_yr" in y:
+            head += f" (reduction {fmt_num(y['all_reduction_lives_per_yr']['predictive'])})"
+        head += (f"; above {cnt['predictive']['above']} of {cnt['lines_assessed']} lines (mode curve: "
+                 f"{cnt['mode']['above']})")
+        lines.append(head)
+        for k in y["reference_lines"]:
+            if k["kind"] != "individual_risk":
+                lines.append(f"      {k['line']}: {position_text(k)}")
     lines.append("Individual risk is not assessed (riskcalc does not compute it).")
     return lines
 

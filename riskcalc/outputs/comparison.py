@@ -258,28 +258,30 @@ _NET_COST_NOTE = ("(a) Reduction in annualized life loss in each condition year,
                   "economic benefits alone exceed the cost.")
 
 
-def _plans(c: Comparison):
-    """(name, condition-year figures) of every plan, the without-project condition first, then by rank."""
-    yield BASE_NAME, without_project(c)["condition_years"]
-    for n in c.ranking["predictive"]:
-        yield n, c.figures[n]["condition_years"]
+def _by_year(c: Comparison):
+    """(condition year figures, plan name) by condition year (tolerable-risk comparisons are made per condition
+    year), in each year the without-project condition first, then the alternatives by rank."""
+    plans = [(BASE_NAME, without_project(c)["condition_years"])]
+    plans += [(n, c.figures[n]["condition_years"]) for n in c.ranking["predictive"]]
+    for k in range(len(plans[0][1])):
+        for name, years in plans:
+            yield years[k], name
 
 
 def _risk_rows(c: Comparison):
     afp, all_ = output_label("annual_failure_probability"), output_label("annualized_life_loss")
     cur = c.scenario.units["currency"]
-    header = ["plan", "condition year", f"{afp.short} [{afp.unit_text(cur)}]", f"{afp.short}, mode curve",
+    header = ["condition year", "plan", f"{afp.short} [{afp.unit_text(cur)}]", f"{afp.short}, mode curve",
               f"{all_.short} [{all_.unit_text(cur)}]", f"{all_.short} reduction", "f-N point N [lives]",
               "lines above: predictive / mode"]
     rows = []
-    for name, years in _plans(c):
-        for y in years:
-            cnt = y["reference_lines_counts"]
-            red = y.get("all_reduction_lives_per_yr")
-            rows.append([name, _year_text(y["year"]), fmt_num(y["afp_per_yr"]["predictive"]),
-                         fmt_num(y["afp_per_yr"]["mode"]), fmt_num(y["all_lives_per_yr"]["predictive"]),
-                         fmt_num(red["predictive"]) if red else "", fmt_num(y["fn_point"]["n_lives"]),
-                         f"{cnt['predictive']['above']} / {cnt['mode']['above']} of {cnt['lines_assessed']}"])
+    for y, name in _by_year(c):
+        cnt = y["reference_lines_counts"]
+        red = y.get("all_reduction_lives_per_yr")
+        rows.append([_year_text(y["year"]), name, fmt_num(y["afp_per_yr"]["predictive"]),
+                     fmt_num(y["afp_per_yr"]["mode"]), fmt_num(y["all_lives_per_yr"]["predictive"]),
+                     fmt_num(red["predictive"]) if red else "", fmt_num(y["fn_point"]["n_lives"]),
+                     f"{cnt['predictive']['above']} / {cnt['mode']['above']} of {cnt['lines_assessed']}"])
     return header, rows
 
 
@@ -298,13 +300,12 @@ def position_text(check: dict) -> str:
 def _line_rows(c: Comparison):
     header = None
     rows = []
-    for name, years in _plans(c):
-        for y in years:
-            checks = [k for k in y["reference_lines"] if k["kind"] != "individual_risk"]
-            if header is None:
-                header = ["plan", "condition year"] + [k["line"] for k in checks]
-            rows.append([name, _year_text(y["year"])] + [position_text(k) for k in checks])
-    return header or ["plan", "condition year"], rows
+    for y, name in _by_year(c):
+        checks = [k for k in y["reference_lines"] if k["kind"] != "individual_risk"]
+        if header is None:
+            header = ["condition year", "plan"] + [k["line"] for k in checks]
+        rows.append([_year_text(y["year"]), name] + [position_text(k) for k in checks])
+    return header or ["condition year", "plan"], rows
 
 
 def _ranking_sentence(c: Comparison) -> str:
