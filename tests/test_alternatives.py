@@ -1,6 +1,7 @@
 """Alternatives on the shared hazard: pairing identities, annualization, validation, the bundled scenario, the CLI."""
 
 import json
+import re
 import textwrap
 from pathlib import Path
 
@@ -354,3 +355,182 @@ def test_memo_section_is_escaped(scenario_factory):
     assert "&lt;b&gt;dam &amp; dike&lt;/b&gt;" in sec["html"] and "<b>dam" not in sec["html"]
     assert sec["figures"] == ["benefit_distributions"]
     assert "licensed engineers" in sec["markdown"]
+
+
+# --------------------------------------------------------------------------
+# Risk to life per condition year: never discounted; reference lines per condition year
+# --------------------------------------------------------------------------
+HIGHER = """
+[[alternatives.failure_modes]]
+name = "breach"
+shift_sd = 0.2
+  [[alternatives.failure_modes.nodes]]
+  name = "breach given stage"
+  kind = "normal"
+  median = 6.0
+  spread = 0.5
+"""
+
+LINES = """
+[guidelines]
+name = "test lines"
+source = "test source"
+[[guidelines.probability_lines]]
+name = "AFP 1e-3"
+source = "test source"
+value = 1e-3
+[[guidelines.life_loss_lines]]
+name = "ALL 1e-3"
+source = "test source"
+value = 1e-3
+[[guidelines.fn_lines]]
+name = "F-N 1e-3"
+source = "test source"
+anchor_n = 1
+anchor_f = 1e-3
+n_max = 1000
+[[guidelines.probability_lines]]
+name = "IR 1e-4"
+source = "test source"
+value = 1e-4
+measure = "individual_risk"
+"""
+
+
+def _future(rate, life_loss_factor=2.0):
+    return f"""
+    [economics]
+    rate = {rate}
+    period_years = 20
+    base_year = 2030
+      [economics.future]
+      year = 2040
+      life_loss_factor = {life_loss_factor}
+    """
+
+
+def test_condition_year_risk_is_the_plain_per_year_value_and_ignores_the_discount_rate(scenario_factory):
+    # The future year only doubles life loss (life_loss_factor = 2): by hand, its ALL is twice the base year's
+    # and its AFP the same. Risk per condition year is the weighted mean of that year's draws, whatever the rate;
+    # only the money (and the old discount-weighted keys) change with the rate.
+    runs = {}
+    for rate in (0.02, 0.10):
+        sc = _scenario(scenario_factory, _future(rate) + _alt("higher", HIGHER), knowledge=False, folder=f"r{rate}")
+        runs[rate] = al.compare(sc)
+    c = runs[0.02]
+    w = c.weights
+    for plan_years, plan in ((c.figures["higher"]["condition_years"], "higher"),):
+        for k, y in enumerate(plan_years):
+            v = c.risks[plan][k].values
+            assert y["year"] == (2030, 2040)[k] and y["condition"] == ("base year", "future year")[k]
+            assert y["afp_per_yr"]["predictive"] == pytest.approx(float(w @ v["afp"]), rel=1e-14)
+            assert y["all_lives_per_yr"]["predictive"] == pytest.approx(float(w @ v["all"]), rel=1e-14)
+            b = c.risks[BASE_NAME][k].values
+            assert y["all_reduction_lives_per_yr"]["predictive"] == pytest.approx(float(w @ (b["all"] - v["all"])),
+                                                                               rel=1e-12)
+    y0, y1 = c.figures["higher"]["condition_years"]
+    assert y1["all_lives_per_yr"]["predictive"] == pytest.approx(2 * y0["all_lives_per_yr"]["predictive"], rel=1e-12)
+    assert y1["afp_per_yr"]["predictive"] == pytest.approx(y0["afp_per_yr"]["predictive"], rel=1e-12)
+    # the same figures at another discount rate
+    for a, b in zip(c.figures["higher"]["condition_years"], runs[0.10].figures["higher"]["condition_years"]):
+        for key in ("afp_per_yr", "all_lives_per_yr", "all_reduction_lives_per_yr", "afp_reduction_per_yr"):
+            assert a[key]["predictive"] == b[key]["predictive"], key
+    # the old key weights the years by the discount factors, so it moves with the rate
+    old = [r.figures["higher"]["all_reduction_lives_per_yr"]["predictive"] for r in runs.values()]
+    assert old[0] != pytest.approx(old[1], rel=1e-6)
+    # undiscounted mean over the period, by hand: calendar years 2030..2049, the reduction linear from D0 (2030)
+    # to 2 D0 (2040), then held: mean = D0 (1 + sum_t frac_t / 20), frac_t = min(1, (t - 2030) / 10)
+    d0 = y0["all_reduction_lives_per_yr"]["predictive"]
+    hand = d0 * (1 + sum(min(1.0, (t - 2030) / 10) for t in range(2030, 2050)) / 20)
+    for r in runs.values():
+        assert r.figures["higher"]["all_reduction_lives_per_yr_undiscounted"]["predictive"] == pytest.approx(hand,
+                                                                                                           rel=1e-12)
+    f = c.figures["higher"]
+    cost, ben = f["costs"]["annualized_cost_per_yr"], f["expected_annual_benefit_per_yr"]["predictive"]
+    assert f["net_cost_per_statistical_life_saved"]["predictive"] == pytest.approx((cost - ben) / hand, rel=1e-10)
+
+
+def test_without_a_future_year_the_condition_year_equals_the_run(scenario_factory):
+    # one condition year: the undiscounted AFP of that year is the plain AFP of a `riskcalc run` of the base
+    # (same ensemble and response; the comparison's grid holds every plan's breakpoints, so the last digits may
+    # differ: rel 1e-3)
+    from riskcalc.risk.assess import assess
+
+    sc = _scenario(scenario_factory, ECON + _alt("higher", HIGHER), knowledge=False)
+    c = al.compare(sc)
+    from riskcalc.outputs.comparison import without_project
+
+    (y,) = c.figures["higher"]["condition_years"]
+    (b,) = without_project(c)["condition_years"]
+    r = assess(sc)
+    assert b["afp_per_yr"]["predictive"] == pytest.approx(r.values_predictive["afp"], rel=1e-3)
+    assert b["all_lives_per_yr"]["predictive"] == pytest.approx(r.values_predictive["all"], rel=1e-3)
+    # and, with no future year, the old annualized key is the same plain value
+    assert c.figures["higher"]["afp_reduction_per_yr"]["predictive"] == pytest.approx(
+        y["afp_reduction_per_yr"]["predictive"], rel=1e-12)
+
+
+def test_compare_prints_economic_only_and_the_reference_line_positions(scenario_factory, tmp_path, capsys):
+    from riskcalc.outputs.labels import fmt_num
+
+    sc = _scenario(scenario_factory, _future(0.05) + LINES + _alt("higher", HIGHER), knowledge=False)
+    c = al.compare(sc)
+    code, stdout, err = _run(["compare", str(sc.path), "--out", str(tmp_path / "cmp")], capsys)
+    assert code == 0, err
+    assert "economic only" in stdout and "does not rank life safety" in stdout
+    assert "Individual risk is not assessed" in stdout
+    w = c.weights
+    for plan in (BASE_NAME, "higher"):
+        for k, year in enumerate((2030, 2040)):
+            v = c.risks[plan][k].values
+            afp, all_ = float(w @ v["afp"]), float(w @ v["all"])
+            # independent: the weighted share of draws above the AFP line 1e-3 and the life-loss line 1e-3
+            # (f N = c: above where ALL_inc > c; the line is drawn for every N > 0)
+            p_afp = float(w[v["afp"] > 1e-3].sum())
+            p_all = float(w[np.maximum(v["all_incremental"], 0) > 1e-3].sum())
+            head = f"  {plan}, {year}: AFP {fmt_num(afp)} per year, ALL {fmt_num(all_)} lives/yr"
+            i = stdout.index(head)
+            block = re.split(r"\n  (?! )", stdout[i:])[0]  # the plan-year line and its indented lines
+            all_inc = float(w @ v["all_incremental"])
+            for name, value, share in (("AFP 1e-3", afp, p_afp), ("ALL 1e-3", all_inc, p_all)):
+                m = re.search(rf"{name}: (\w+) \(share of draws above ([\d.]+)\)", block)
+                assert m, block
+                assert m.group(1) == ("above" if value > 1e-3 else "below"), block
+                # printed with two decimals: within 0.005 of the independent share (plus rounding of the sums)
+                assert abs(float(m.group(2)) - share) <= 0.005 + 1e-12, (block, share)
+            assert "F-N 1e-3: " in block and "IR 1e-4" not in block
+            if plan != BASE_NAME:
+                red = float(w @ (c.risks[BASE_NAME][k].values["all"] - v["all"]))
+                assert f"(reduction {fmt_num(red)})" in block
+    # the ranking table shows the life-loss reduction of each condition year beside the money
+    (row,) = [ln for ln in stdout.splitlines() if ln.strip().startswith("1  higher")]
+    for y in c.figures["higher"]["condition_years"]:
+        assert fmt_num(y["all_reduction_lives_per_yr"]["predictive"]) in row
+    d = json.loads((tmp_path / "cmp" / "comparison.json").read_text())
+    assert d["ranking"]["economic_only"] is True and "condition_years" in d["without_project"]
+    assert "not discounted" in d["risk_statements"]
+    # f-N points are compared with the f-N lines only, not with the F-N limit line
+    assert sorted(ch["line"] for ch in d["alternatives"]["higher"]["fn_point"]["checks"]) == ["AFP 1e-3", "ALL 1e-3"]
+
+
+def test_paired_table_is_numbered_from_one(scenario_factory):
+    from riskcalc.outputs.comparison import paired_differences_table
+
+    sc = _scenario(scenario_factory, ECON + _alt("higher", HIGHER), knowledge=False)
+    c = al.compare(sc)
+    t = paired_differences_table(c)
+    g = t[t.alternative == "higher"]
+    assert g["draw"].tolist() == list(range(1, c.weights.size + 1))
+    assert g["realization"].min() == 1 and g["realization"].max() == sc.ensemble.size
+    assert g["realization_label"].tolist() == [sc.ensemble.labels[i] for i in c.realization]
+
+
+def test_mode_fallback_is_not_called_the_most_likely_curve(scenario_factory):
+    # the conftest ensemble has no log_posterior: its "mode" is the curve at the weighted mean parameters
+    sc = _scenario(scenario_factory, ECON + _alt("higher", HIGHER), knowledge=False)
+    assert sc.ensemble.log_posterior is None
+    md = memo_section(al.compare(sc))["markdown"]
+    assert "most likely" not in md
+    from riskcalc.outputs.comparison import mode_curve_words
+
+    assert "weighted mean parameters" in mode_curve_words(al.compare(sc))

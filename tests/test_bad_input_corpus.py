@@ -346,7 +346,7 @@ CASES = [
      r"scenario\.toml, key 'guidelines\.fn_lines\[0\]\.anchor_f': 2\.0 is outside \(0, 1\]; expected a positive "
      r"annual probability"),
     ("guidelines-unknown-default-set", append("[guidelines]\ninclude = ['usace']\n"),
-     r"scenario\.toml, key 'guidelines\.include\[0\]': 'usace' is not usace_2014, usbr_2011 or ancold_2003"),
+     r"scenario\.toml, key 'guidelines\.include\[0\]': 'usace' is not usace_2014, usbr_2011, ancold_2003 or usace_levee"),
     ("economics-misspelt-key", append("[economics]\nrate = 0.03\nperiod = 50\n"),
      r"scenario\.toml, key 'economics\.period': unknown key; expected one of base_year, future, period_years, rate"),
     ("economics-future-misspelt-key", append("[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\n"

@@ -1,5 +1,6 @@
 """Compound interest factors, annualization and benefit-cost figures against closed forms and tables."""
 
+import math
 import warnings
 from fractions import Fraction
 
@@ -306,3 +307,28 @@ def test_economic_result_is_frozen():
     res = ec.benefit_figures(10.0, 5.0, 1.0)
     with pytest.raises(dataclasses.FrozenInstanceError):
         res.net_benefit = 0.0
+
+
+# --------------------------------------------------------------------------
+# Risk to life is not discounted
+# --------------------------------------------------------------------------
+def test_undiscounted_mean_by_hand():
+    # base 2030 value 1e-3, future 2040 value 2e-3, period 20 years from 2030: years 2030..2040 rise by 1e-4 a
+    # year (11 values, sum 11e-3 + 55e-4), 2041..2049 hold 2e-3 (9 values): mean = (0.011 + 0.0055 + 0.018) / 20
+    got = ec.undiscounted_mean(np.array([1e-3, 2e-3]), 20, years=[2030, 2040], base_year=2030)
+    assert got == pytest.approx(0.0345 / 20, rel=1e-13)
+    # a constant series is its own mean; the mean is the annualized value at a rate of 0
+    assert ec.undiscounted_mean(np.array([[3.0, 3.0]]), 20, years=[2030, 2040])[0] == pytest.approx(3.0, rel=1e-15)
+    v = np.array([[1.0, 4.0], [2.0, 0.5]])
+    np.testing.assert_allclose(ec.undiscounted_mean(v, 30, years=[2030, 2045]),
+                               ec.annualize_time_varying(v, 0.0, 30, years=[2030, 2045]), rtol=1e-13)
+    # while a positive rate weights the early years more (growing series: below the plain mean)
+    assert ec.annualize_time_varying(np.array([1e-3, 2e-3]), 0.07, 20, years=[2030, 2040]) < got
+
+
+def test_net_cost_per_life_saved_rule():
+    # (cost - benefit) / reduction; no reduction: +inf with a positive net cost, NaN otherwise (as benefit_figures)
+    out = ec.net_cost_per_life_saved([100.0, 100.0, 100.0, 50.0], [40.0, 40.0, 40.0, 80.0], [0.5, 0.0, -1.0, 0.0])
+    assert out[0] == pytest.approx(120.0) and math.isinf(out[1]) and math.isinf(out[2]) and math.isnan(out[3])
+    r = ec.benefit_figures(10.0, 6.0, 10.0, 0.3, 0.1)
+    assert float(r.cost_per_life_saved) == pytest.approx(float(ec.net_cost_per_life_saved(10.0, 4.0, 0.2)))

@@ -10,7 +10,7 @@ import pytest
 
 from riskcalc.outputs import figures as plots
 from riskcalc.risk.assess import assess
-from riskcalc.decision.guidelines import DEFAULT_GUIDELINES
+from riskcalc.decision.guidelines import DEFAULT_GUIDELINES, STRUCTURE_DEFAULTS
 from riskcalc.config.scenario import load_scenario
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -65,8 +65,9 @@ def test_aep_distribution_marks_the_weighted_mean_and_the_mode(bundled):
 
 def test_fn_chart_draws_only_chart_lines(bundled):
     result, _, _ = bundled
-    gs = plots.scenario_guidelines(result.scenario)  # no [guidelines] section: every default set
-    assert {ln.name for ln in gs.lines} == {ln.name for s in DEFAULT_GUIDELINES.values() for ln in s.lines}
+    gs = plots.scenario_guidelines(result.scenario)  # no [guidelines] section: the default sets for a dam
+    dam = {ln.name for k in STRUCTURE_DEFAULTS["dam"] for ln in DEFAULT_GUIDELINES[k].lines}
+    assert {ln.name for ln in gs.lines} == dam
     fig = plots.plot_fn(result, gs)
     labels = " ".join(t.get_text().replace("\n", " ") for ax in fig.axes if ax.get_legend()
                       for t in ax.get_legend().get_texts())

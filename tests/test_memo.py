@@ -323,3 +323,52 @@ def test_memo_pdf_through_chromium(run, tmp_path):
     assert pdf.startswith(b"%PDF")
     # one page a section at least (print stylesheet: a page break before each section after the first)
     assert len(re.findall(rb"/Type\s*/Page[^s]", pdf)) >= 7
+
+
+def test_memo_names_the_mean_parameter_fallback_and_states_the_confidence(run):
+    result, out = run
+    md = (out / "memo.md").read_text()
+    # the conftest ensemble has no log_posterior: the "mode" curve is the curve at the weighted mean parameters
+    assert result.scenario.ensemble.log_posterior is None
+    assert "single most likely" not in md and "weighted mean parameters" in md
+    # no structure key: the dam lines, with a note that the kind was not given
+    assert "does not give the kind of structure" in md
+    # the last column of the tolerable-risk table is the share of draws above the line, from the CSV
+    import pandas as pd
+
+    t = pd.read_csv(out / "tables" / "tolerable_risk.csv")
+    row = t[(t.reference_line == "USBR annual failure probability") & (t.curve == "predictive")].iloc[0]
+    w, afp = result.propagation.weights, result.propagation.column("afp")
+    # USBR AFP line 1e-4 [from memory]: the weighted share of draws with AFP > 1e-4, computed here directly
+    assert row.share_of_draws_above == pytest.approx(float(w[afp > 1e-4].sum()), abs=1e-9)
+    line = [ln for ln in md.splitlines() if ln.startswith("| USBR annual failure probability")][0]
+    assert line.rstrip(" |").endswith(f"{row.share_of_draws_above:.2f}")
+    assert "share of draws above the line" in md
+
+
+def test_a_point_outside_a_line_range_is_not_applicable_in_the_memo(tmp_path):
+    # a life-loss line drawn only for N >= 10000 lives: the f-N point of this scenario (N = ALL_inc / AFP, a few
+    # lives) lies left of it, so the line does not apply: "not applicable", not "below"
+    sc = write_scenario(tmp_path / "sc", toml_extra=textwrap.dedent("""
+    [grid]
+    points = 400
+    [guidelines]
+    [[guidelines.life_loss_lines]]
+    name = "ALL 0.001 for N >= 10000"
+    source = "test source"
+    value = 1e-3
+    n_min = 10000
+    """))
+    out = tmp_path / "out"
+    result = run_scenario(sc, out)
+    n = result.values_predictive["all_incremental"] / result.values_predictive["afp"]
+    assert n < 1e4
+    import pandas as pd
+
+    t = pd.read_csv(out / "tables" / "tolerable_risk.csv")
+    assert set(t.position) == {"not applicable"} and t.exceeds.isna().all()
+    md = (out / "memo.md").read_text()
+    (line,) = [ln for ln in md.splitlines() if ln.startswith("| ALL 0.001 for N")]
+    assert line.count("not applicable") == 2 and "below" not in line
+    assert "not applicable" in md and "not the same as lying below the line" in md
+    assert "scenario's \\[guidelines\\]" in md

@@ -64,9 +64,12 @@ def run(
         result = run_scenario(scenario, out, overwrite=overwrite, workers=workers or None, progress=update)
     s = result.summary()
     if not quiet:
+        from ..decision.reference_checks import reference_checks, summary_line
+
         typer.echo(s["title"])
         for line in headline_lines(s):
             typer.echo(line)
+        typer.echo(summary_line(s.get("reference_lines") or reference_checks(result)))
         for w in s["warnings"]:
             typer.echo(f"warning: {w}")
         typer.echo(caution_line())

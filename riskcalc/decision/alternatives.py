@@ -55,7 +55,7 @@ from ..risk.assess import build_grid
 from ..risk.records import weighted_summary
 from ..errors import InputError
 from ..hazard.curves import mode_curve
-from ..risk.integrate import cell_masses
+from ..risk.integrate import cell_masses, evaluation_points, fn_levels, point_masses
 from ..risk.propagate import chunk_rows_for, propagate
 from ..config.decision import BASE_NAME, EconomicSettings, parse_alternatives, parse_economics
 
@@ -127,6 +127,10 @@ class PlanRisk:
         :func:`sampling_signature` of the plan's model.
     knowledge : bool
         Whether the plan's response has knowledge uncertainty.
+    fn : dict or None
+        F-N curves on the year's common life-loss levels (nominal response, incremental life loss):
+        ``levels (L,)``, ``predictive (L,)``, ``mode (L,)``, ``draws (D, L)`` (paired with the draws, or None
+        when not kept) and ``basis`` (what the rows of ``draws`` are).
     """
 
     plan: str
@@ -135,6 +139,7 @@ class PlanRisk:
     mode: dict
     signature: tuple
     knowledge: bool
+    fn: dict | None = None
 
 
 def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> dict:
@@ -177,6 +182,12 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
     rows = min(chunk_rows_for(m, grids[y].size) for y, ms in models.items() for m in ms.values())
     log_spacing = next(iter(ensembles.values()))[0].log_scale
     rule = g["rule"]
+    # F-N levels common to every plan of a year (as a run chooses them: 1 and log-spaced up to the largest
+    # nominal incremental life loss), so the plans' F-N curves are read at the same N
+    levels = {}
+    for year, ms in models.items():
+        mid = evaluation_points(grids[year], log_spacing, "midpoint")
+        levels[year] = fn_levels(max([1.0] + [m.on(mid).max_incremental_life_loss() for m in ms.values()]))
     risks: dict = {}
     chunks = set()
     weights = realization = None
@@ -185,7 +196,7 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
         for plan, m in ms.items():
             prop = propagate(ens, m, grids[year], seed=scenario.seed, draws_per_realization=k, rule=rule,
                              log_spacing=log_spacing, workers=workers,
-                             chunk_rows=rows)
+                             chunk_rows=rows, fn_levels=levels[year])
             chunks.add(prop.n_chunks)
             rep = k // prop.draws_per_realization
             vals = {n: np.repeat(prop.column(n), rep) for n in MEASURES}
@@ -196,11 +207,30 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
             risks.setdefault(plan, []).append(PlanRisk(plan=plan, year=year, values=vals,
                                                        mode={n: float(mode_vals[n]) for n in MEASURES},
                                                        signature=sampling_signature(m),
-                                                       knowledge=m.has_knowledge_uncertainty))
+                                                       knowledge=m.has_knowledge_uncertainty,
+                                                       fn=_plan_fn(m, prop, levels[year], modes[year], rep, k)))
     if len(chunks) != 1:  # the chunking rule of propagate changed: pairing of response draws is not guaranteed
         raise RuntimeError(f"plans were propagated in different chunkings {sorted(chunks)}; cannot pair draws")
     return {"risks": risks, "weights": weights, "realization": realization, "draws_per_realization": k,
             "grids": grids}
+
+
+def _plan_fn(chain, prop, levels, mode_masses, rep, k) -> dict:
+    """F-N curves of one plan in one year: predictive and mode (nominal response) and one per draw."""
+    fn_matrix = chain.on(prop.points).fn_integrand(levels)[0]
+    out = {"levels": levels, "predictive": prop.point_masses_predictive @ fn_matrix,
+           "mode": point_masses(mode_masses, prop.rule) @ fn_matrix, "draws": None,
+           "basis": "the per-draw F-N curves were not kept (too many realizations × levels)"}
+    fpd = getattr(prop, "fn_per_draw", None)
+    if fpd is not None:
+        out.update(draws=np.repeat(np.asarray(fpd, float), rep, axis=0), basis="the F-N curve of every draw")
+    elif prop.fn_per_realization is not None:
+        basis = "the F-N curve of every hazard realization"
+        if chain.has_knowledge_uncertainty:
+            basis += " with the nominal response: the sampled response uncertainty is not in this share"
+        # each realization's k draws share its curve; their weights w_r / k add up to w_r
+        out.update(draws=np.repeat(np.asarray(prop.fn_per_realization, float), k, axis=0), basis=basis)
+    return out
 
 
 @dataclass(frozen=True, eq=False)
@@ -255,26 +285,97 @@ def _annualize(series, settings):
                                      base_year=settings.base_year)
 
 
-def _guideline_lines(scenario):
-    from .guidelines import DEFAULT_GUIDELINES, GuidelineSet, from_config
+def _period_mean(series, settings):
+    """Undiscounted mean over the period of values at the condition years: (..., Y) -> (...)."""
+    if settings.future_year is None:
+        return np.asarray(series)[..., 0]
+    return ec.undiscounted_mean(series, settings.period_years, years=list(settings.years),
+                                base_year=settings.base_year)
 
-    if isinstance(scenario.guidelines, GuidelineSet):
-        return scenario.guidelines.chart_lines
-    if scenario.guidelines:
-        return from_config(scenario.guidelines, file=scenario.path).chart_lines
-    return tuple(ln for gs in DEFAULT_GUIDELINES.values() for ln in gs.chart_lines)
+
+def _guideline_lines(scenario):
+    """The chart lines of the scenario (its [guidelines], else the defaults of its structure)."""
+    from .guidelines import scenario_guideline_set
+
+    return scenario_guideline_set(scenario)[0].chart_lines
+
+
+def _all_lines(scenario):
+    """Every line of the scenario, individual-risk lines too (reported as not assessed)."""
+    from .guidelines import scenario_guideline_set
+
+    return scenario_guideline_set(scenario)[0].lines
 
 
 def _fn_point(afp, all_incremental, lines):
-    from .guidelines import check_point
+    """The f-N point (AFP, N = ALL_inc / AFP) against the f-N lines (life-loss and AFP lines) only: an F-N
+    limit line limits the F-N curve (see :func:`condition_year_figures`), not a point."""
+    from .reference_checks import point_ratios, position
 
+    all_incremental = max(0.0, float(all_incremental))
     n = all_incremental / afp if afp > 0 else float("nan")
     checks = []
     for ln in lines:
-        c = check_point(ln, afp, all_incremental)
-        checks.append({"line": ln.name, "source": ln.source, "limit_per_yr": float(c.limit),
-                       "ratio": float(c.ratio), "exceeds": bool(c.exceeds)})
+        if ln.kind == "fn_limit" or (ln.kind == "probability" and not ln.on_chart):
+            continue
+        ratio, _, limit = (float(np.asarray(x)) for x in point_ratios(ln, afp, all_incremental))
+        checks.append({"line": ln.name, "source": ln.source, "limit_per_yr": limit, "ratio": ratio,
+                       "exceeds": bool(ratio > 1), "position": position(ratio)})
     return {"afp_per_yr": float(afp), "n_lives": float(n), "checks": checks}
+
+
+def condition_year_figures(risk: PlanRisk, weights, lines, base: PlanRisk | None = None,
+                           condition: str = "base year") -> dict:
+    """The risk of one plan in one condition year, not discounted, against the reference lines.
+
+    Parameters
+    ----------
+    risk : PlanRisk
+    weights : ndarray (D,)
+        Draw weights, paired with ``risk.values``.
+    lines : sequence of lines
+        Chart lines (no individual-risk line is assessed).
+    base : PlanRisk, optional
+        The without-project plan in the same year: adds the reductions (paired per draw).
+    condition : str
+        ``"base year"`` or ``"future year"``.
+
+    Returns
+    -------
+    dict
+        ``year``, ``condition``, ``afp_per_yr``, ``ead_per_yr``, ``all_lives_per_yr``,
+        ``all_incremental_lives_per_yr`` (predictive = weighted mean over the draws, mode), the ``fn_point``,
+        ``reference_lines`` (:func:`riskcalc.decision.reference_checks.line_checks`: the position of the
+        predictive and mode figures and the share of draws above each line) and ``reference_lines_counts``;
+        with ``base``, ``afp_reduction_per_yr`` and ``all_reduction_lives_per_yr``. These are the values of
+        that year, never discounted: tolerable-risk statements are made per condition year.
+    """
+    from .reference_checks import Figures, count_positions, line_checks
+
+    w = np.asarray(weights, float)
+    v, mo = risk.values, risk.mode
+    pred = {n: float(w @ v[n]) for n in MEASURES}
+    fn = risk.fn or {}
+    levels = fn.get("levels")
+    checks = line_checks(lines, levels, Figures(pred["afp"], pred["all_incremental"], fn.get("predictive")),
+                         Figures(mo["afp"], mo["all_incremental"], fn.get("mode")),
+                         Figures(v["afp"], v["all_incremental"], fn.get("draws")), w, fn_basis=fn.get("basis", ""))
+    out = {"year": risk.year, "condition": condition,
+           "afp_per_yr": {"predictive": pred["afp"], "mode": mo["afp"], "ensemble": _stats(v["afp"], w)},
+           "ead_per_yr": {"predictive": pred["ead"], "mode": mo["ead"]},
+           "all_lives_per_yr": {"predictive": pred["all"], "mode": mo["all"], "ensemble": _stats(v["all"], w)},
+           "all_incremental_lives_per_yr": {"predictive": pred["all_incremental"], "mode": mo["all_incremental"]},
+           "fn_point": _fn_point(pred["afp"], pred["all_incremental"], lines),
+           "reference_lines": checks, "reference_lines_counts": count_positions(checks)}
+    if base is not None:
+        for key, n in (("afp_reduction_per_yr", "afp"), ("all_reduction_lives_per_yr", "all")):
+            d = base.values[n] - v[n]
+            out[key] = {"predictive": float(w @ d), "mode": base.mode[n] - mo[n], "ensemble": _stats(d, w)}
+    return out
+
+
+def _conditions(settings) -> list[str]:
+    return ["base year" if k == 0 else "future year" for k in range(len(settings.years))]
 
 
 def _stats(values, weights):
@@ -340,8 +441,14 @@ def compare(scenario, *, workers=None) -> Comparison:
     for plan, rs in risks.items():
         equivalent[plan] = {n: _annualize(np.stack([r.values[n] for r in rs], axis=-1), settings) for n in MEASURES}
         equivalent_mode[plan] = {n: float(_annualize(np.array([r.mode[n] for r in rs]), settings)) for n in MEASURES}
-    lines = _guideline_lines(scenario)
+    lines, all_lines = _guideline_lines(scenario), _all_lines(scenario)
+    conditions = _conditions(settings)
     base_eq, base_mode = equivalent[BASE_NAME], equivalent_mode[BASE_NAME]
+    # life loss is never discounted: its mean over the years of the period (linear between condition years)
+    plain = {plan: {n: _period_mean(np.stack([r.values[n] for r in rs], axis=-1), settings) for n in ("all",)}
+             for plan, rs in risks.items()}
+    plain_mode = {plan: {n: float(_period_mean(np.array([r.mode[n] for r in rs]), settings)) for n in ("all",)}
+                  for plan, rs in risks.items()}
     economics, figures, notes = {}, {}, []
     base_sig = risks[BASE_NAME][0].signature
     for a in alts:
@@ -367,6 +474,13 @@ def compare(scenario, *, workers=None) -> Comparison:
                          "draws are not paired with the base's (the hazard realizations are); the benefit's "
                          "percentiles are wider than with paired draws, its mean is unaffected")
         by = risks[a.name][0]
+        d_all = plain[BASE_NAME]["all"] - plain[a.name]["all"]
+        mean_d_all = float(w @ d_all)
+        mode_d_all = plain_mode[BASE_NAME]["all"] - plain_mode[a.name]["all"]
+        net_cost = {"predictive": float(ec.net_cost_per_life_saved(cost, mean_b, mean_d_all)),
+                    "mode": float(ec.net_cost_per_life_saved(cost, mode_b, mode_d_all))}
+        years = [condition_year_figures(r, w, all_lines, base=b, condition=cnd)
+                 for r, b, cnd in zip(risks[a.name], risks[BASE_NAME], conditions)]
         figures[a.name] = {
             "description": a.description,
             "costs": {"first_cost": a.first_cost, "annual_om_per_yr": a.annual_om,
@@ -391,10 +505,19 @@ def compare(scenario, *, workers=None) -> Comparison:
                           "all_lives_per_yr": float(w @ by.values["all"])},
             "fn_point": _fn_point(float(w @ by.values["afp"]), float(w @ by.values["all_incremental"]), lines),
             "response_draws_paired": paired,
+            # added: risk per condition year (not discounted), the undiscounted life-loss reduction and the net
+            # cost per statistical life saved on it
+            "condition_years": years,
+            "all_reduction_lives_per_yr_undiscounted": {"predictive": mean_d_all, "mode": mode_d_all,
+                                                        "ensemble": _stats(d_all, w)},
+            "net_cost_per_statistical_life_saved": net_cost,
         }
     pred_order = sorted(figures, key=lambda n: -figures[n]["net_benefit_per_yr"]["predictive"])
     mode_order = sorted(figures, key=lambda n: -figures[n]["net_benefit_per_yr"]["mode"])
-    ranking = {"by": "net benefit", "predictive": pred_order, "mode": mode_order,
+    ranking = {"by": "net benefit", "economic_only": True,
+               "note": "the ranking is economic only (net benefit); it does not rank life safety: read each plan's "
+                       "position against the reference lines per condition year (condition_years)",
+               "predictive": pred_order, "mode": mode_order,
                "changes_between_predictive_and_mode": pred_order != mode_order,
                "top_changes": pred_order[0] != mode_order[0],
                "justified_predictive": [n for n in pred_order if figures[n]["net_benefit_per_yr"]["predictive"] > 0],

@@ -57,11 +57,13 @@ __all__ = [
     "single_payment_present_worth",
     "annual_values",
     "annualize_time_varying",
+    "undiscounted_mean",
     "interest_during_construction",
     "investment_cost",
     "annualized_cost",
     "EconomicResult",
     "benefit_figures",
+    "net_cost_per_life_saved",
 ]
 
 
@@ -353,6 +355,28 @@ def annualize_time_varying(values, rate, period_years, years=None, base_year=Non
     return _out(present_worth * capital_recovery_factor(i, t_len))
 
 
+def undiscounted_mean(values, period_years, years=None, base_year=None):
+    """Plain (undiscounted) mean over the period of analysis of a time-varying annual series.
+
+    For risk to life: annual failure probability and life loss are never discounted. The mean of the
+    annual values of years ``1..T`` (:func:`annual_values`: linear between breakpoint years, held
+    constant outside them), each year counted once.
+
+    Parameters
+    ----------
+    values, period_years, years, base_year
+        As for :func:`annual_values`.
+
+    Returns
+    -------
+    mean : float or ndarray, shape ``values.shape[:-1]``
+        ``(1 / T) sum_t value_t`` [same unit as ``values``]; equals :func:`annualize_time_varying` at a
+        rate of 0. A constant series gives itself.
+    """
+    series = annual_values(values, period_years, years=years, base_year=base_year)
+    return _out(series.mean(axis=-1))
+
+
 # --------------------------------------------------------------------------
 # Costs
 # --------------------------------------------------------------------------
@@ -585,13 +609,34 @@ def benefit_figures(ead_without, ead_with, annual_cost, all_without=None, all_wi
     if all_without is not None:
         lw, lp = (np.array(a) for a in arrays[3:])
         reduction = lw - lp
-        net_cost = cost - benefit
-        saves = reduction > 0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            per_life = np.where(saves, net_cost / np.where(saves, reduction, 1.0),
-                                np.where(net_cost > 0, np.inf, np.nan))
-        # NaN in either input stays NaN (the comparisons above are False for NaN)
-        per_life = np.where(np.isnan(reduction) | np.isnan(net_cost), np.nan, per_life)
         fields.update(all_without=lw, all_with=lp, life_loss_reduction=reduction,
-                      cost_per_life_saved=per_life)
+                      cost_per_life_saved=np.asarray(net_cost_per_life_saved(cost, benefit, reduction)))
     return EconomicResult(**fields)
+
+
+def net_cost_per_life_saved(annual_cost, annual_benefit, life_loss_reduction):
+    """Net annual cost, after the economic benefits, per statistical life saved per year.
+
+    Parameters
+    ----------
+    annual_cost : float or array_like
+        Annualized project cost [$/yr].
+    annual_benefit : float or array_like
+        Expected annual benefit [$/yr].
+    life_loss_reduction : float or array_like
+        Reduction in annualized life loss [lives/yr] (not discounted: life loss is never discounted).
+
+    Returns
+    -------
+    float or ndarray
+        ``(annual_cost - annual_benefit) / life_loss_reduction`` [$ per statistical life]; where the
+        reduction is zero or negative, ``+inf`` if the net cost is positive and NaN otherwise; NaN inputs
+        give NaN. See :func:`benefit_figures`.
+    """
+    cost, benefit, reduction = np.broadcast_arrays(_f(annual_cost), _f(annual_benefit), _f(life_loss_reduction))
+    net_cost = cost - benefit
+    saves = reduction > 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        per_life = np.where(saves, net_cost / np.where(saves, reduction, 1.0), np.where(net_cost > 0, np.inf, np.nan))
+    # NaN in either input stays NaN (the comparisons above are False for NaN)
+    return _out(np.where(np.isnan(reduction) | np.isnan(net_cost), np.nan, per_life))

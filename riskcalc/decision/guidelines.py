@@ -16,11 +16,20 @@ built:
     horizontal line on f-N axes) or an individual risk, which is compared
     with a computed individual risk and not drawn on f-N axes.
 
-:data:`DEFAULT_GUIDELINES` holds the lines of three published guidance
-documents as display defaults. **They are recalled, not verified against the
-primary documents, and each citation says so. The governing agency's current
-policy, and local codes, decide which lines apply and what they are**; give
-those with :func:`from_config`.
+:data:`DEFAULT_GUIDELINES` holds the lines of published guidance documents
+as display defaults. **They are recalled, not verified against the primary
+documents, and each citation says so. The governing agency's current policy,
+and local codes, decide which lines apply and what they are**; give those
+with :func:`from_config`.
+
+Which defaults are drawn depends on the kind of structure
+(:data:`STRUCTURE_DEFAULTS`, :func:`default_guidelines`): a dam gets the dam
+sets (USACE, USBR, ANCOLD); a levee gets the USACE tolerable risk guidelines
+only, which USACE applies to levees as well as dams [4]_, and not the
+dam-only USBR public protection guidelines or ANCOLD unless the scenario's
+``[guidelines]`` includes them; a scenario that does not say which
+(``structure = "unspecified"``) gets the dam sets, and a note says the kind
+was not given (:func:`structure_note`).
 
 Checks return the ratio of the computed risk to the line (``> 1`` exceeds
 the line) and where on the N axis it is taken.
@@ -33,6 +42,11 @@ References
    Guidelines.
 .. [3] ANCOLD (2003). Guidelines on Risk Assessment. Australian National
    Committee on Large Dams.
+.. [4] Snorteland, N.J. (2019). Rationale behind the US Army Corps of
+   Engineers tolerable risk guidelines. ANCOLD conference paper (its abstract:
+   the guidelines form a common basis for dam and levee safety evaluations
+   and decisions). The levee values here are recalled [from memory; check the
+   primary document].
 """
 
 from __future__ import annotations
@@ -54,6 +68,12 @@ __all__ = [
     "PointCheck",
     "CurveCheck",
     "DEFAULT_GUIDELINES",
+    "STRUCTURES",
+    "STRUCTURE_DEFAULTS",
+    "DAM_ONLY",
+    "default_guidelines",
+    "scenario_guideline_set",
+    "structure_note",
     "from_config",
     "evaluate_line",
     "check_point",
@@ -258,6 +278,8 @@ class GuidelineSet:
 _USACE = f"US Army Corps of Engineers (2014), ER 1110-2-1156, Safety of Dams - Policy and Procedures, ch. 5 {UNVERIFIED}"
 _USBR = f"US Bureau of Reclamation (2011), Dam Safety Public Protection Guidelines {UNVERIFIED}"
 _ANCOLD = f"ANCOLD (2003), Guidelines on Risk Assessment {UNVERIFIED}"
+_USACE_LEVEE = ("US Army Corps of Engineers, levee safety policy and procedures: the tolerable risk guidelines "
+                f"of ER 1110-2-1156 (2014) ch. 5 as applied to levees {UNVERIFIED}")
 
 #: Default guideline sets, keyed by a short identifier. Recalled values, not
 #: verified here: check the primary documents, and use the governing agency's
@@ -293,7 +315,108 @@ DEFAULT_GUIDELINES: Mapping[str, GuidelineSet] = MappingProxyType({
                         slope=-1.0, n_min=1.0, n_max=1000.0),
         ),
     ),
+    # USACE applies one set of tolerable risk guidelines to dams and levees; recalled for a levee: individual
+    # life safety risk 1e-4 per year, societal F-N limit (N = 1, F = 1e-3) to (N = 1000, F = 1e-6). No annual
+    # failure probability line (that is USBR's, for dams).
+    "usace_levee": GuidelineSet(
+        name="USACE tolerable risk guidelines applied to levees",
+        source=_USACE_LEVEE,
+        lines=(
+            ProbabilityLine("USACE individual life safety risk, levee", _USACE_LEVEE, 1e-4,
+                            measure="individual_risk"),
+            FNLimitLine("USACE societal life safety risk limit, levee", _USACE_LEVEE, anchor_n=1.0, anchor_f=1e-3,
+                        slope=-1.0, n_min=1.0, n_max=1000.0),
+        ),
+    ),
 })
+
+#: The kinds of structure a scenario can name (its top-level ``structure`` key).
+STRUCTURES = ("dam", "levee", "unspecified")
+
+#: Default sets drawn for each kind of structure when the scenario has no ``[guidelines]`` section. A levee
+#: gets the USACE guidelines only; ``"unspecified"`` keeps the dam sets (and :func:`structure_note` says so).
+STRUCTURE_DEFAULTS: Mapping[str, tuple] = MappingProxyType({
+    "dam": ("usace_2014", "usbr_2011", "ancold_2003"),
+    "levee": ("usace_levee",),
+    "unspecified": ("usace_2014", "usbr_2011", "ancold_2003"),
+})
+
+#: Default sets written for dams only: not drawn for a levee unless its ``[guidelines]`` includes them.
+DAM_ONLY = ("usbr_2011", "ancold_2003")
+
+_STRUCTURE_WORDS = {"dam": "a dam", "levee": "a levee"}
+
+
+def default_guidelines(structure: str = "unspecified") -> GuidelineSet:
+    """The default lines for a kind of structure, as one set.
+
+    Parameters
+    ----------
+    structure : {"dam", "levee", "unspecified"}
+
+    Returns
+    -------
+    GuidelineSet
+        The lines of the sets of :data:`STRUCTURE_DEFAULTS` ``[structure]``, in that order; its name says
+        for which structure they are, its source joins the sets' citations.
+
+    Raises
+    ------
+    ValueError
+        For another structure.
+    """
+    if structure not in STRUCTURE_DEFAULTS:
+        raise ValueError(f"structure must be one of {', '.join(STRUCTURES)}; got {structure!r}")
+    sets = [DEFAULT_GUIDELINES[k] for k in STRUCTURE_DEFAULTS[structure]]
+    who = _STRUCTURE_WORDS.get(structure, "a dam (the structure kind was not given)")
+    return GuidelineSet(name=f"display defaults from published guidance for {who}",
+                        source="; ".join(gs.source for gs in sets),
+                        lines=tuple(ln for gs in sets for ln in gs.lines))
+
+
+def scenario_guideline_set(scenario) -> tuple[GuidelineSet, str]:
+    """The reference lines of a scenario and where they come from.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        Reads ``guidelines`` (a :class:`GuidelineSet`, a ``[guidelines]`` table, or None) and ``structure``.
+
+    Returns
+    -------
+    lines : GuidelineSet
+        The scenario's ``[guidelines]`` when it has a non-empty one, else :func:`default_guidelines` of its
+        structure.
+    origin : {"scenario", "defaults"}
+    """
+    cfg = getattr(scenario, "guidelines", None)
+    if isinstance(cfg, GuidelineSet):  # validated when the scenario was loaded
+        return cfg, "scenario"
+    if cfg:
+        return from_config(cfg, file=getattr(scenario, "path", None)), "scenario"
+    return default_guidelines(getattr(scenario, "structure", "unspecified") or "unspecified"), "defaults"
+
+
+def structure_note(structure: str, origin: str = "defaults") -> str:
+    """One sentence on which lines are drawn and why: the structure kind and the origin of the lines.
+
+    Parameters
+    ----------
+    structure : {"dam", "levee", "unspecified"}
+    origin : {"defaults", "scenario"}
+        As returned by :func:`scenario_guideline_set`.
+    """
+    if origin == "scenario":
+        return ("The reference lines are those of the scenario's [guidelines] section"
+                + (f" (structure: {structure})." if structure in _STRUCTURE_WORDS else "."))
+    if structure == "levee":
+        return ("The structure is a levee: the default lines are the USACE tolerable risk guidelines, which USACE "
+                "applies to levees as well as dams; the dam-only USBR public protection guidelines and ANCOLD "
+                "are not drawn (add them with [guidelines] include if the governing agency asks).")
+    if structure == "dam":
+        return "The structure is a dam: the default lines are those of USACE, USBR and ANCOLD for dams."
+    return ("The scenario does not give the kind of structure (structure = \"dam\" or \"levee\"), so the "
+            "default lines for a dam are drawn (USACE, USBR and ANCOLD); for a levee only the USACE lines apply.")
 
 
 # --------------------------------------------------------------------------
@@ -417,7 +540,8 @@ class PointCheck:
         The line's value at ``n`` [1/yr] (NaN outside its range).
     ratio : ndarray
         Computed risk / line [-]; ``> 1`` exceeds. 0 where AFP is 0; NaN
-        where ``n`` is outside an F-N line's range.
+        where ``n`` is outside the range of an F-N or life-loss line (the
+        line does not apply to the point: "not applicable", not "below").
     exceeds : ndarray of bool
         ``ratio > 1`` (False where the ratio is NaN).
     """
@@ -445,7 +569,11 @@ def check_point(line: Line, afp, all_) -> PointCheck:
     PointCheck
         The ratio is ``ALL / c`` for a life-loss line (the same as
         ``f / (c / N)``), ``AFP / value`` for a probability line and
-        ``AFP / F_line(N)`` for an F-N line.
+        ``AFP / F_line(N)`` for an F-N line; NaN (not applicable) where N
+        lies outside the range of a life-loss or F-N line. An f-N point is
+        meant for f-N lines (life-loss and annual failure probability lines);
+        an F-N limit line limits an F-N curve (:func:`check_fn_curve`), and
+        :mod:`riskcalc.decision.reference_checks` compares it with the curve only.
 
     Raises
     ------
@@ -461,7 +589,12 @@ def check_point(line: Line, afp, all_) -> PointCheck:
         n = np.where(f > 0, life / np.where(f > 0, f, 1.0), np.nan)
         limit = np.asarray(evaluate_line(line, n), dtype=float)
         if isinstance(line, LifeLossLine):
-            ratio = life / line.value
+            # ALL / c where the point's N is in the line's range; a point outside it is not on the line's
+            # part of the chart (not applicable, NaN), except a point without life loss (N = 0) against a
+            # line drawn for every N > 0: ALL = 0 lies below it
+            ratio = np.where(np.isnan(limit), np.nan, life / line.value)
+            if line.n_min == 0:
+                ratio = np.where((f > 0) & (life == 0), 0.0, ratio)
         elif isinstance(line, ProbabilityLine):
             ratio = f / line.value
         else:

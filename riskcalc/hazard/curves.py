@@ -255,7 +255,8 @@ def mode_curve(ens: HazardEnsemble, explicit: dict | None = None):
     elif ens.family != "table":
         params = {k: np.array([float(ens.weights @ v)]) for k, v in ens.params.items()}
         note = ("mode curve: no log_posterior column and no explicit parameters, so the curve at the "
-                "weighted mean parameters (" + ", ".join(f"{k} = {v[0]:.4g}" for k, v in params.items()) + ")")
+                "weighted mean parameters (" + ", ".join(f"{k} = {v[0]:.4g}" for k, v in params.items()) + "); "
+                "it stands in for the mode and is not known to be the most likely curve")
         return HazardEnsemble(family=ens.family, weights=np.ones(1), params=params, labels=("mean-parameter",),
                               quantity=ens.quantity, unit=ens.unit, source=ens.source), note
     else:
@@ -263,7 +264,8 @@ def mode_curve(ens: HazardEnsemble, explicit: dict | None = None):
         f = np.log10 if ens.log_scale else (lambda a: a)
         i = int(np.argmin(((f(ens.table_values) - f(med)) ** 2).sum(axis=1)))
         note = (f"mode curve: no log_posterior column, so realization '{ens.labels[i]}', "
-                "the member closest to the median curve")
+                "the member closest to the median curve; it stands in for the mode and is not known to be the "
+                "most likely curve")
     one = ens.subset([i])
     return HazardEnsemble(family=one.family, weights=np.ones(1), params=one.params, table_aep=one.table_aep,
                           table_values=one.table_values, log_posterior=one.log_posterior, labels=one.labels,

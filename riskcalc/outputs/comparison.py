@@ -12,9 +12,10 @@ import numpy as np
 from ..decision import economics as ec
 from ..io import to_plain as _plain
 from ..config.decision import BASE_NAME
-from ..decision.alternatives import Comparison, _fn_point, _guideline_lines, _stats
+from ..decision.alternatives import (Comparison, _all_lines, _conditions, _fn_point, _guideline_lines, _stats,
+                                     condition_year_figures)
 from .labels import CAUTION, currency_text, fmt_money, fmt_num, fmt_ratio, output_label
-from .memo import Block, Section, blocks_html, blocks_markdown, number_figures
+from .memo import Block, Section, blocks_html, blocks_markdown, mode_words, number_figures
 
 #: Title of the alternatives section (comparison.md and the memo).
 SECTION_TITLE = "Alternatives and economics"
@@ -36,7 +37,44 @@ def without_project(c: Comparison) -> dict:
                                                   "mode": c.equivalent_mode[BASE_NAME]["afp"]},
             "fn_point": _fn_point(float(w @ c.risks[BASE_NAME][0].values["afp"]),
                                   float(w @ c.risks[BASE_NAME][0].values["all_incremental"]),
-                                  _guideline_lines(sc))}
+                                  _guideline_lines(sc)),
+            # added: the risk of each condition year, not discounted, against the reference lines
+            "condition_years": [condition_year_figures(r, w, _all_lines(sc), condition=cnd)
+                                for r, cnd in zip(c.risks[BASE_NAME], _conditions(c.settings))]}
+
+
+#: How comparison.json's risk figures are to be read (written into it as ``risk_statements``).
+RISK_STATEMENTS = ("Money (EAD, benefits, costs) is discounted and annualized over the period of analysis. Risk to "
+                   "life is not discounted: the annual failure probability and the life loss of each condition "
+                   "year are under condition_years, and tolerable-risk comparisons are made per condition year. "
+                   "The older keys afp_reduction_per_yr, all_reduction_lives_per_yr, cost_per_statistical_life_saved "
+                   "and without_project's annual_failure_probability_per_yr and annualized_life_loss_lives_per_yr "
+                   "are discount-weighted averages over the period, kept for existing scripts; read condition_years, "
+                   "all_reduction_lives_per_yr_undiscounted and net_cost_per_statistical_life_saved instead.")
+
+
+def mode_curve_words(c: Comparison) -> str:
+    """How the comparison names the mode curve (:func:`riskcalc.outputs.memo.mode_words` of its mode note)."""
+    from ..hazard.curves import mode_curve
+
+    sc = c.scenario
+    return mode_words(mode_curve(sc.ensemble, sc.mode_params or None)[1])
+
+
+def _lines_origin(c: Comparison) -> str:
+    from ..decision.guidelines import scenario_guideline_set
+
+    return scenario_guideline_set(c.scenario)[1]
+
+
+def _lines_note(c: Comparison) -> str:
+    from ..decision.guidelines import structure_note
+
+    return structure_note(getattr(c.scenario, "structure", "unspecified") or "unspecified", _lines_origin(c))
+
+
+def _year_text(y) -> str:
+    return "base year" if y is None else str(y)
 
 
 def comparison_dict(c: Comparison) -> dict:
@@ -52,6 +90,10 @@ def comparison_dict(c: Comparison) -> dict:
         "draws": int(w.size), "draws_per_realization": c.draws_per_realization, "seed": sc.seed,
         "without_project": base, "alternatives": c.figures, "ranking": c.ranking, "notes": c.notes,
         "caution": CAUTION,
+        # added: how the risk figures are to be read
+        "risk_statements": RISK_STATEMENTS, "mode_curve": mode_curve_words(c),
+        "reference_lines": {"structure": getattr(sc, "structure", "unspecified") or "unspecified",
+                            "lines_from": _lines_origin(c), "note": _lines_note(c)},
     })
 
 
@@ -91,21 +133,42 @@ def alternatives_table(c: Comparison):
             "rank_mode": c.ranking["mode"].index(name) + 1,
             "response_draws_paired": f["response_draws_paired"],
         })
+        # added: undiscounted life-loss reduction, net cost per life on it, and the risk of each condition year
+        row = rows[-1]
+        row["all_reduction_undiscounted_lives_per_yr"] = f["all_reduction_lives_per_yr_undiscounted"]["predictive"]
+        row[f"net_cost_per_life_saved_undiscounted_{cur}"] = f["net_cost_per_statistical_life_saved"]["predictive"]
+        for y in f["condition_years"]:
+            t = _year_text(y["year"]).replace(" ", "_")
+            cnt = y["reference_lines_counts"]
+            row[f"afp_{t}_per_yr"] = y["afp_per_yr"]["predictive"]
+            row[f"afp_reduction_{t}_per_yr"] = y["afp_reduction_per_yr"]["predictive"]
+            row[f"all_{t}_lives_per_yr"] = y["all_lives_per_yr"]["predictive"]
+            row[f"all_reduction_{t}_lives_per_yr"] = y["all_reduction_lives_per_yr"]["predictive"]
+            row[f"reference_lines_above_{t}_predictive"] = cnt["predictive"]["above"]
+            row[f"reference_lines_above_{t}_mode"] = cnt["mode"]["above"]
+            row[f"reference_lines_assessed_{t}"] = cnt["lines_assessed"]
     return pd.DataFrame(rows)
 
 
 def paired_differences_table(c: Comparison):
-    """Long table: one row an alternative and a draw, the paired differences from the base."""
+    """Long table: one row an alternative and a draw, the paired differences from the base.
+
+    Draws are numbered from 1; ``realization`` is the hazard realization's position in the ensemble file,
+    numbered from 1, and ``realization_label`` its label.
+    """
     import pandas as pd
 
     cur = c.scenario.units["currency"]
     frames = []
-    d = np.arange(c.weights.size)
+    d = np.arange(1, c.weights.size + 1)
+    ens = c.scenario.ensemble
+    labels = np.asarray(ens.labels or tuple(str(i + 1) for i in range(ens.size)), dtype=object)[c.realization]
     base = c.equivalent[BASE_NAME]
     for a in c.alternatives:
         eq, res = c.equivalent[a.name], c.economics[a.name]
         frames.append(pd.DataFrame({
-            "alternative": a.name, "draw": d, "realization": c.realization, "weight": c.weights,
+            "alternative": a.name, "draw": d, "realization": c.realization + 1, "realization_label": labels,
+            "weight": c.weights,
             f"benefit_{cur}_per_yr": res.expected_annual_benefit,
             f"net_benefit_{cur}_per_yr": res.net_benefit,
             "bcr": res.benefit_cost_ratio,
@@ -160,14 +223,20 @@ def plot_benefit_distributions(c: Comparison, path_stem=None):
         return save(fig, path_stem)
 
 
+def _reduction_by_year(f) -> str:
+    """The life-loss reduction of every condition year: ``'0.0123 (2030) / 0.0150 (2070)'``."""
+    return " / ".join(f"{fmt_num(y['all_reduction_lives_per_yr']['predictive'])} ({_year_text(y['year'])})"
+                      for y in f["condition_years"])
+
+
 def _table_rows(c: Comparison):
     cur = c.scenario.units["currency"]
     money = f"[{currency_text(cur)}/yr]"
-    afp, all_ = output_label("annual_failure_probability"), output_label("annualized_life_loss")
+    all_ = output_label("annualized_life_loss")
     header = ["alternative", f"annualized cost {money}", f"benefit {money}", "benefit 5–95 %",
               f"benefit, mode curve {money}", "pred/mode", f"net benefit {money}", "BCR (5–95 %)",
-              f"{afp.short} reduction [{afp.unit_text(cur)}]", f"{all_.short} reduction [{all_.unit_text(cur)}]",
-              f"net cost per statistical life saved [{currency_text(cur)}] (a)", "rank pred/mode"]
+              f"{all_.short} reduction per condition year [{all_.unit_text(cur)}] (a)",
+              f"net cost per statistical life saved [{currency_text(cur)}] (b)", "rank pred/mode"]
     rows = []
     for n in c.ranking["predictive"]:
         f = c.figures[n]
@@ -177,22 +246,76 @@ def _table_rows(c: Comparison):
                      fmt_ratio(b["ratio_predictive_to_mode"]), fmt_money(f["net_benefit_per_yr"]["predictive"]),
                      f"{fmt_ratio(bcr['predictive'])} ({fmt_ratio(bcr['ensemble']['p05'])}–"
                      f"{fmt_ratio(bcr['ensemble']['p95'])})",
-                     fmt_num(f["afp_reduction_per_yr"]["predictive"]),
-                     fmt_num(f["all_reduction_lives_per_yr"]["predictive"]),
-                     fmt_money(f["cost_per_statistical_life_saved"]["predictive"]),
+                     _reduction_by_year(f),
+                     fmt_money(f["net_cost_per_statistical_life_saved"]["predictive"]),
                      f"{c.ranking['predictive'].index(n) + 1} / {c.ranking['mode'].index(n) + 1}"])
     return header, rows
 
 
-_NET_COST_NOTE = ("(a) Net cost per statistical life saved = (annualized cost − expected annual benefit) / reduction "
-                  "in annualized life loss; a negative value means the economic benefits alone exceed the cost.")
+_NET_COST_NOTE = ("(a) Reduction in annualized life loss in each condition year, not discounted. (b) Net cost per "
+                  "statistical life saved = (annualized cost − expected annual benefit) / reduction in annualized "
+                  "life loss, the life loss not discounted (its mean over the period); a negative value means the "
+                  "economic benefits alone exceed the cost.")
+
+
+def _by_year(c: Comparison):
+    """(condition year figures, plan name) by condition year (tolerable-risk comparisons are made per condition
+    year), in each year the without-project condition first, then the alternatives by rank."""
+    plans = [(BASE_NAME, without_project(c)["condition_years"])]
+    plans += [(n, c.figures[n]["condition_years"]) for n in c.ranking["predictive"]]
+    for k in range(len(plans[0][1])):
+        for name, years in plans:
+            yield years[k], name
+
+
+def _risk_rows(c: Comparison):
+    afp, all_ = output_label("annual_failure_probability"), output_label("annualized_life_loss")
+    cur = c.scenario.units["currency"]
+    header = ["condition year", "plan", f"{afp.short} [{afp.unit_text(cur)}]", f"{afp.short}, mode curve",
+              f"{all_.short} [{all_.unit_text(cur)}]", f"{all_.short} reduction", "f-N point N [lives]",
+              "lines above: predictive / mode"]
+    rows = []
+    for y, name in _by_year(c):
+        cnt = y["reference_lines_counts"]
+        red = y.get("all_reduction_lives_per_yr")
+        rows.append([_year_text(y["year"]), name, fmt_num(y["afp_per_yr"]["predictive"]),
+                     fmt_num(y["afp_per_yr"]["mode"]), fmt_num(y["all_lives_per_yr"]["predictive"]),
+                     fmt_num(red["predictive"]) if red else "", fmt_num(y["fn_point"]["n_lives"]),
+                     f"{cnt['predictive']['above']} / {cnt['mode']['above']} of {cnt['lines_assessed']}"])
+    return header, rows
+
+
+def position_text(check: dict) -> str:
+    """A plan's position against one line: ``'above (share of draws above 0.87)'``, ``'not applicable'``."""
+    pos = check["predictive"]["position"]
+    d = check.get("draws")
+    if d is None:
+        return pos
+    text = f"{pos} (share of draws above {fmt_ratio(d['share_above'])}"
+    if d["share_not_applicable"]:
+        text += f", not applicable {fmt_ratio(d['share_not_applicable'])}"
+    return text + ")"
+
+
+def _line_rows(c: Comparison):
+    header = None
+    rows = []
+    for y, name in _by_year(c):
+        checks = [k for k in y["reference_lines"] if k["kind"] != "individual_risk"]
+        if header is None:
+            header = ["condition year", "plan"] + [k["line"] for k in checks]
+        rows.append([_year_text(y["year"]), name] + [position_text(k) for k in checks])
+    return header or ["condition year", "plan"], rows
 
 
 def _ranking_sentence(c: Comparison) -> str:
     r = c.ranking
-    s = f"Ranked by net benefit on the predictive (mean) hazard: {', '.join(r['predictive'])}."
+    s = (f"Ranked by net benefit on the predictive (mean) hazard: {', '.join(r['predictive'])}. This ranking is "
+         "economic only: it does not rank the plans' life safety, which is read against the reference lines per "
+         "condition year below.")
+    mode = mode_curve_words(c)
     if r["changes_between_predictive_and_mode"]:
-        s += (f" On the single most likely (mode) curve the order would be {', '.join(r['mode'])}: "
+        s += (f" On {mode} the order would be {', '.join(r['mode'])}: "
               "justifying or ranking the alternatives on the mode curve would mis-rank them.")
     else:
         s += " The order is the same on the mode curve, though the mode curve's benefits differ (see pred/mode)."
@@ -226,23 +349,26 @@ def alternatives_section(c: Comparison, *, figures: bool = True) -> Section:
     period = (f"a {s.period_years}-year period from {s.base_year}" if s.base_year is not None
               else f"a {s.period_years}-year period")
     intro = (f"Alternatives compared with the without-project condition on the same {c.weights.size} paired draws "
-             f"of the hazard ensemble, at a discount rate of {100 * s.rate:g} % over {period}.")
+             f"of the hazard ensemble. Money (damage, benefits, costs) is discounted at {100 * s.rate:g} % over "
+             f"{period}")
     if s.future_year is not None:
-        intro += (f" Risk is interpolated linearly between {s.base_year} and the future condition of {s.future_year} "
-                  "and annualized with the capital recovery factor.")
-    fn_lines = []
-    for n in c.ranking["predictive"]:
-        p = c.figures[n]["fn_point"]
-        worst = max(p["checks"], key=lambda ch: -1 if ch["ratio"] is None or not np.isfinite(ch["ratio"])
-                    else ch["ratio"], default=None)
-        text = f"{n}: f-N point AFP {fmt_num(p['afp_per_yr'])} per year, N {fmt_num(p['n_lives'])}"
-        if worst is not None and worst["ratio"] is not None and np.isfinite(worst["ratio"]):
-            text += f"; largest ratio to a reference line {fmt_ratio(worst['ratio'])} ({worst['line']})"
-        fn_lines.append(text)
+        intro += (f", interpolated linearly between {s.base_year} and the future condition of {s.future_year} "
+                  "and annualized with the capital recovery factor")
+    intro += (". Risk to life is not discounted: the annual failure probability and the life loss are given for "
+              "each condition year, and each plan is placed against the reference lines per condition year.")
+    rh, rr = _risk_rows(c)
+    lh, lr = _line_rows(c)
     blocks = [Block("p", intro),
               Block("table", header=tuple(header), rows=tuple(tuple(r) for r in rows), css="alternatives"),
               Block("p", _NET_COST_NOTE), Block("p", _ranking_sentence(c)),
-              Block("p", "f-N points (base year, predictive):"), Block("list", items=tuple(fn_lines))]
+              Block("p", "Risk per condition year (predictive figures unless marked; not discounted). The f-N "
+                         "point's N = ALL_inc / AFP is the average life loss caused by a failure."),
+              Block("table", header=tuple(rh), rows=tuple(tuple(r) for r in rr), css="alternatives"),
+              Block("p", "Position of each plan's predictive figures against the reference lines, per condition "
+                         "year, with the weighted share of the paired draws whose figure lies above the line (AFP "
+                         "lines: the AFP; life-loss lines: the f-N point; F-N limit lines: the F-N curve anywhere in "
+                         "the line's N range). " + _lines_note(c) + " Individual risk is not assessed."),
+              Block("table", header=tuple(lh), rows=tuple(tuple(r) for r in lr), css="alternatives")]
     if c.notes:
         blocks += [Block("p", "Notes:"), Block("list", items=tuple(str(t) for t in c.notes))]
     if figures:

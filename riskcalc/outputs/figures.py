@@ -21,7 +21,8 @@ from .labels import (HEADLINE_KEYS, currency_text, fmt_aep_axis, fmt_num, fmt_qu
 
 __all__ = ["STYLE", "SERIES", "GUIDE", "FIGURE_STEMS", "save", "probability_axis", "plot_hazard",
            "plot_aep_distribution", "plot_response", "plot_consequences", "plot_risk_distributions", "plot_fn",
-           "plot_contributions", "plot_sensitivity", "run_figures", "scenario_guidelines", "merged_chart_lines"]
+           "plot_contributions", "plot_sensitivity", "run_figures", "scenario_guidelines", "merged_chart_lines",
+           "short_source"]
 
 #: riskcalc's palette: distinct in hue and in lightness, so it also reads in greyscale.
 STYLE = {
@@ -188,25 +189,30 @@ def _t(s) -> str:
 
 
 def scenario_guidelines(scenario):
-    """The tolerable-risk lines of a scenario: its ``[guidelines]`` section, else every default set.
+    """The tolerable-risk lines of a scenario: its ``[guidelines]`` section, else the defaults of its structure.
 
     Returns
     -------
     GuidelineSet
-        From :func:`riskcalc.guidelines.from_config` when the scenario has a
-        non-empty ``[guidelines]`` section; otherwise the lines of all sets in
-        :data:`riskcalc.guidelines.DEFAULT_GUIDELINES` (display defaults).
+        From :func:`riskcalc.decision.guidelines.scenario_guideline_set`: the scenario's non-empty
+        ``[guidelines]`` section; otherwise the display defaults for its ``structure``
+        (:func:`riskcalc.decision.guidelines.default_guidelines`: a dam and an unspecified structure get the
+        USACE, USBR and ANCOLD lines, a levee the USACE lines only).
     """
-    from ..decision.guidelines import DEFAULT_GUIDELINES, GuidelineSet, from_config
+    from ..decision.guidelines import scenario_guideline_set
 
-    cfg = getattr(scenario, "guidelines", None)
-    if isinstance(cfg, GuidelineSet):  # validated when the scenario was loaded
-        return cfg
-    if cfg:
-        return from_config(cfg, file=getattr(scenario, "path", None))
-    lines = tuple(ln for gs in DEFAULT_GUIDELINES.values() for ln in gs.lines)
-    return GuidelineSet(name="display defaults from published guidance",
-                        source="; ".join(gs.source for gs in DEFAULT_GUIDELINES.values()), lines=lines)
+    return scenario_guideline_set(scenario)[0]
+
+
+def short_source(source) -> str:
+    """A line's source as a legend shows it: the citation up to its first comma, and "[from memory]" when the
+    citation says it was recalled (``'US Bureau of Reclamation (2011) [from memory]'``)."""
+    from ..decision.guidelines import UNVERIFIED
+
+    text = str(source)
+    recalled = UNVERIFIED in text or "[from memory" in text
+    head = text.replace(UNVERIFIED, "").split(",")[0].strip()
+    return head + (" [from memory]" if recalled else "")
 
 
 def _geometry(line):
@@ -214,15 +220,19 @@ def _geometry(line):
     return (line.kind, tuple(sorted(d.items())))
 
 
-def merged_chart_lines(gs):
-    """Chart lines with identical geometry merged into one: ``[(line, "label A / label B"), ...]``."""
+def merged_chart_lines(gs, *, with_source: bool = False):
+    """Chart lines with identical geometry merged into one: ``[(line, "label A / label B"), ...]``.
+
+    With ``with_source`` each name is followed by its source in brackets (:func:`short_source`).
+    """
     out: dict = {}
     for ln in gs.chart_lines:
         key = _geometry(ln)
+        name = f"{ln.name} ({short_source(ln.source)})" if with_source else ln.name
         if key in out:
-            out[key] = (out[key][0], out[key][1] + " / " + ln.name)
+            out[key] = (out[key][0], out[key][1] + " / " + name)
         else:
-            out[key] = (ln, ln.name)
+            out[key] = (ln, name)
     return list(out.values())
 
 
@@ -450,8 +460,14 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
     """
     from ..decision.guidelines import FNLimitLine, evaluate_line
 
-    gs = guidelines if guidelines is not None else scenario_guidelines(result.scenario)
-    lines = merged_chart_lines(gs)
+    from ..decision.guidelines import scenario_guideline_set
+
+    if guidelines is None:
+        gs, origin = scenario_guideline_set(result.scenario)
+    else:
+        gs, origin = guidelines, "given"
+    lines = merged_chart_lines(gs, with_source=True)
+    structure = getattr(result.scenario, "structure", "unspecified") or "unspecified"
     fn = result.fn
     N = np.asarray(fn["levels"], float)
     with plt.rc_context(_rc()):
@@ -536,9 +552,13 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
         a2.grid(True, which="major", color=STYLE["grid"], lw=0.6)
         _legend_below(a2)
         fig.tight_layout()
-        fig.text(0.5, 1.0, "Reference lines: display defaults from published guidance, or the scenario's "
-                 "[guidelines]; the governing agency's current policy decides which lines apply.", ha="center",
-                 va="bottom", fontsize=7.5, color="#444444")
+        which = {"dam": "display defaults for a dam from published guidance",
+                 "levee": "display defaults for a levee from published guidance (USACE only)",
+                 }.get(structure, "display defaults for a dam from published guidance (structure kind not given)")
+        if origin != "defaults":
+            which = "the scenario's [guidelines]"
+        fig.text(0.5, 1.0, f"Reference lines: {which}; the governing agency's current policy decides which lines "
+                 "apply. Individual risk is not assessed.", ha="center", va="bottom", fontsize=7.5, color="#444444")
         return fig if path_stem is None else save(fig, path_stem)
 
 

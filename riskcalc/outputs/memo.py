@@ -42,7 +42,7 @@ from ..errors import InputError
 from .labels import (CAUTION, HEADLINE_KEYS, fmt_aep, fmt_index, fmt_num, fmt_percent,
                      fmt_quantity, fmt_ratio, fmt_return_period, output_label, unit_text)
 
-__all__ = ["write_memo", "rebuild_memo", "tolerable_risk_table", "render_memo", "Block", "Section",
+__all__ = ["write_memo", "rebuild_memo", "tolerable_risk_table", "mode_words", "render_memo", "Block", "Section",
            "blocks_markdown", "blocks_html", "section_to_dict", "section_from_dict"]
 
 #: Captions of the run figures, by file stem (in memo order).
@@ -339,75 +339,60 @@ def render_memo(title: str, subtitle: str, sections) -> tuple[str, str]:
 # --------------------------------------------------------------------------
 # Tolerable-risk comparison (written at run time from the result)
 # --------------------------------------------------------------------------
-_KIND_TEXT = {"fn_limit": "F-N limit line", "life_loss": "annualized life loss line",
-              "probability": "annual failure probability line"}
-
-
-def _definition(line) -> str:
-    if line.kind == "fn_limit":
-        rng = f"{line.n_min:g} ≤ N ≤ {line.n_max:g}" if math.isfinite(line.n_max) else f"N ≥ {line.n_min:g}"
-        return f"F = {line.anchor_f:g} × (N / {line.anchor_n:g})^{line.slope:g}, {rng}"
-    if line.kind == "life_loss":
-        return f"f × N = {line.value:g} lives/yr"
-    if line.measure == "individual_risk":
-        return f"individual risk {line.value:g} per year"
-    return f"AFP = {line.value:g} per year"
+#: Columns of tables/tolerable_risk.csv (the first eleven as before; the rest added with the confidence).
+TOLERABLE_COLUMNS = ["reference_line", "source", "kind", "definition", "compared_with", "curve", "computed_per_yr",
+                     "limit_per_yr", "ratio", "exceeds", "n_lives", "position", "share_of_draws_above",
+                     "share_of_draws_below", "share_of_draws_not_applicable", "draws_basis", "structure",
+                     "lines_from"]
 
 
 def tolerable_risk_table(result, guidelines=None):
-    """Each reference line against the predictive and mode results, as a tidy table.
+    """Each reference line against the predictive and mode results, with the confidence, as a tidy table.
 
-    An annual failure probability line is compared with AFP; a life-loss line
-    with the f-N point (AFP, ALL_inc / AFP), where ALL_inc = Σ P_f (L_breach −
-    L_no_breach) m is the life loss caused by failure; an F-N limit line with
-    the F-N curve (its largest ratio, :func:`riskcalc.guidelines.check_fn_curve`).
-    Individual-risk lines get a row saying they are not assessed.
+    An annual failure probability line is compared with AFP; a life-loss line (an f-N line) with the f-N
+    point (AFP, ALL_inc / AFP), where ALL_inc = Σ P_f (L_breach − L_no_breach) m is the life loss caused by
+    failure; an F-N limit line with the F-N curve anywhere in its N range (its largest ratio,
+    :func:`riskcalc.decision.guidelines.check_fn_curve`). Individual-risk lines get a row saying they are not
+    assessed. The rows and the confidence come from :func:`riskcalc.decision.reference_checks.reference_checks`.
 
     Returns
     -------
     pandas.DataFrame
-        Columns ``reference_line, source, kind, definition, compared_with,
-        curve, computed_per_yr, limit_per_yr, ratio, exceeds, n_lives``.
+        Columns :data:`TOLERABLE_COLUMNS`: ``position`` is above, below, not applicable (an f-N point whose N
+        lies outside the line's range, or an F-N curve with no point in it) or not assessed;
+        ``share_of_draws_above`` is the weighted share of the Monte Carlo draws whose figure lies above the
+        line (on the predictive row; blank on the mode row and for individual-risk lines), with the shares
+        below and not applicable and what the draws are (``draws_basis``); ``structure`` and ``lines_from``
+        say which lines were drawn.
     """
     import pandas as pd
 
-    from ..decision.guidelines import check_fn_curve, check_point, check_value, evaluate_line
-    from .figures import scenario_guidelines
+    from ..decision.reference_checks import reference_checks
 
-    gs = guidelines if guidelines is not None else scenario_guidelines(result.scenario)
+    ref = reference_checks(result, guidelines)
     rows = []
-    curves = (("predictive", result.values_predictive, result.fn["predictive"]),
-              ("mode", result.values_mode, result.fn["mode"]))
-    levels = np.asarray(result.fn["levels"], float)
-    for ln in gs.lines:
-        base = {"reference_line": ln.name, "source": ln.source, "kind": _KIND_TEXT[ln.kind], "definition": _definition(ln)}
-        if ln.kind == "probability" and not ln.on_chart:
-            rows.append({**base, "kind": "individual risk line",
-                         "compared_with": "not assessed (riskcalc does not compute individual risk)",
-                         "curve": "", "computed_per_yr": np.nan, "limit_per_yr": ln.value, "ratio": np.nan,
-                         "exceeds": "", "n_lives": np.nan})
+    for c in ref["lines"]:
+        base = {"reference_line": c["line"], "source": c["source"], "kind": c["kind_text"],
+                "definition": c["definition"], "structure": ref["structure"], "lines_from": ref["lines_from"]}
+        if c["kind"] == "individual_risk":
+            rows.append({**base, "compared_with": c["compared_with"], "curve": "", "computed_per_yr": np.nan,
+                         "limit_per_yr": c["predictive"]["limit_per_yr"], "ratio": np.nan, "exceeds": "",
+                         "n_lives": np.nan, "position": "not assessed"})
             continue
-        for curve, v, fn in curves:
-            afp, all_inc = float(v["afp"]), max(0.0, float(v["all_incremental"]))
-            if ln.kind == "probability":
-                comp, limit, ratio, n = afp, ln.value, float(check_value(ln, afp)), np.nan
-                what = "AFP"
-            elif ln.kind == "life_loss":
-                pc = check_point(ln, afp, all_inc)
-                comp, limit, ratio, n = afp, float(pc.limit), float(pc.ratio), float(pc.n)
-                what = "f-N point (AFP at N = ALL_inc / AFP)"
-            else:
-                cc = check_fn_curve(ln, levels, np.asarray(fn, float))
-                ratio, n = float(cc.max_ratio), float(cc.n_at_max)
-                limit = float(evaluate_line(ln, n)) if math.isfinite(n) else np.nan
-                comp = ratio * limit if math.isfinite(ratio) else np.nan
-                what = "F-N curve (largest ratio)"
-            rows.append({**base, "compared_with": what, "curve": curve, "computed_per_yr": comp,
-                         "limit_per_yr": limit, "ratio": ratio,
-                         "exceeds": "" if not math.isfinite(ratio) else ("yes" if ratio > 1 else "no"),
-                         "n_lives": n})
-    return pd.DataFrame(rows, columns=["reference_line", "source", "kind", "definition", "compared_with", "curve",
-                                       "computed_per_yr", "limit_per_yr", "ratio", "exceeds", "n_lives"])
+        for curve in ("predictive", "mode"):
+            v = c[curve]
+            ratio = np.nan if v["ratio"] is None else v["ratio"]
+            row = {**base, "compared_with": c["compared_with"], "curve": curve,
+                   "computed_per_yr": np.nan if v["computed_per_yr"] is None else v["computed_per_yr"],
+                   "limit_per_yr": np.nan if v["limit_per_yr"] is None else v["limit_per_yr"], "ratio": ratio,
+                   "exceeds": "" if not math.isfinite(ratio) else ("yes" if ratio > 1 else "no"),
+                   "n_lives": np.nan if v["n_lives"] is None else v["n_lives"], "position": v["position"]}
+            d = c["draws"]
+            if curve == "predictive" and d is not None:
+                row.update(share_of_draws_above=d["share_above"], share_of_draws_below=d["share_below"],
+                           share_of_draws_not_applicable=d["share_not_applicable"], draws_basis=d["basis"])
+            rows.append(row)
+    return pd.DataFrame(rows, columns=TOLERABLE_COLUMNS)
 
 
 def write_memo(result, outdir) -> list[Path]:
@@ -504,6 +489,28 @@ def rebuild_memo(outdir) -> list[Path]:
     return paths
 
 
+def mode_words(notes) -> str:
+    """How the memo names the mode curve, from the run's mode-curve note (the first note starting "mode curve:").
+
+    Only a mode chosen by the largest ``log_posterior`` is "the single most likely (mode) curve"; explicit
+    parameters are the scenario's mode curve; the fallbacks are named for what they are (the curve at the
+    weighted mean parameters, or the member closest to the median curve).
+    """
+    if isinstance(notes, str):
+        notes = [notes]
+    note = next((str(n) for n in (notes or []) if str(n).startswith("mode curve:")), "")
+    if "weighted mean parameters" in note:
+        return "the mode curve (here the curve at the weighted mean parameters: the ensemble has no log_posterior)"
+    if "closest to the median curve" in note:
+        return ("the mode curve (here the member closest to the median curve: the ensemble has no "
+                "log_posterior)")
+    if "explicit parameters" in note:
+        return "the mode curve (the scenario's explicit mode parameters)"
+    if "largest log_posterior" in note:
+        return "the single most likely (mode) curve"
+    return "the mode curve"
+
+
 def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) -> tuple[str, str, list]:
     """The memo's title, subtitle and sections from the run's files (see :func:`rebuild_memo`)."""
     prov = summary.get("provenance", {}) or {}
@@ -542,7 +549,7 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     if r_afp is not None and math.isfinite(r_afp) and m.get("aep_on_predictive"):
         word = ("understates" if r_afp > 1.05 else "overstates" if r_afp < 0.95 else "matches, within 5 %,")
         blocks.append(Block("p", (
-            f"What the ratio means: the single most likely (mode) curve {word} the annual failure probability "
+            f"What the ratio means: {mode_words(summary.get('notes'))} {word} the annual failure probability "
             f"(predictive / mode = {fmt_ratio(r_afp)}). A crest set at the mode curve's {fmt_aep(p_d)} stage "
             f"({fmt_quantity(m.get('stage'), 'stage')} {stage_unit}) is exceeded on average about once in "
             f"{fmt_return_period(m['aep_on_predictive'])} years on the predictive curve, not once in "
@@ -652,7 +659,14 @@ def _setting(v) -> str:
     return str(v)
 
 
+def _share(s) -> str:
+    v = _float(s)
+    return fmt_ratio(v) if v is not None else "n/a"
+
+
 def _tolerable_blocks(tol: list[dict]) -> list[Block]:
+    from ..decision.guidelines import STRUCTURES, structure_note
+
     blocks = [Block("p", "The computed risk against tolerable-risk reference lines. Ratio = computed / line; above "
                          "1 the result lies above the line. These lines are defaults from published guidance (or "
                          "the lines the scenario gives); the governing agency's current policy applies and decides "
@@ -661,6 +675,9 @@ def _tolerable_blocks(tol: list[dict]) -> list[Block]:
     if not tol:
         blocks.append(Block("p", "No tolerable-risk table was found (tables/tolerable_risk.csv)."))
         return blocks
+    structure = tol[0].get("structure") or "unspecified"
+    if structure in STRUCTURES:
+        blocks.append(Block("p", structure_note(structure, tol[0].get("lines_from") or "defaults")))
     sources = []
     for r in tol:
         if r["source"] not in sources:
@@ -671,30 +688,67 @@ def _tolerable_blocks(tol: list[dict]) -> list[Block]:
         by_line.setdefault((r["reference_line"], r["compared_with"]), {})[r["curve"] or "-"] = r
     rows = []
     n_exceed = {"predictive": 0, "mode": 0}
-    n_lines = 0
+    n_na = {"predictive": 0, "mode": 0}
+    n_lines = n_not_assessed = 0
+    basis = []
+
+    def cell(rr):
+        if not rr:
+            return "n/a"
+        if rr.get("position") == "not applicable":
+            return "not applicable"
+        return fmt_ratio(_float(rr.get("ratio")))
+
     for (name, what), d in by_line.items():
         p = d.get("predictive") or d.get("-")
         mo = d.get("mode", {})
         if "-" in d:
-            rows.append((f"{name} {ref[p['source']]}", p["definition"], what, "", "", "", ""))
+            n_not_assessed += 1
+            rows.append((f"{name} {ref[p['source']]}", p["definition"], what, "", "", "", "", ""))
             continue
         n_lines += 1
         for c, rr in (("predictive", p), ("mode", mo)):
             if rr and rr.get("exceeds") == "yes":
                 n_exceed[c] += 1
+            if rr and rr.get("position") == "not applicable":
+                n_na[c] += 1
         nl = _float(p.get("n_lives"))
-        where = f" at N = {fmt_num(nl)}" if nl is not None else ""
+        where = f" at N = {fmt_num(nl)}" if nl is not None and p.get("position") != "not applicable" else ""
+        share = _share(p.get("share_of_draws_above"))
+        na = _float(p.get("share_of_draws_not_applicable"))
+        if na:
+            share += f" ({fmt_ratio(na)} n/a)"
+        if p.get("draws_basis") and p["draws_basis"] not in basis:
+            basis.append(p["draws_basis"])
         rows.append((f"{name} {ref[p['source']]}", p["definition"], what + where, fmt_num(_float(p["computed_per_yr"])),
-                     fmt_num(_float(p["limit_per_yr"])), fmt_ratio(_float(p["ratio"])),
-                     fmt_ratio(_float(mo.get("ratio"))) if mo else "n/a"))
+                     fmt_num(_float(p["limit_per_yr"])), cell(p), cell(mo), share))
     blocks.append(Block("table", header=("reference line", "definition", "compared with", "predictive [1/yr]",
-                                         "line [1/yr]", "ratio (predictive)", "ratio (mode curve)"),
+                                         "line [1/yr]", "ratio (predictive)", "ratio (mode curve)",
+                                         "share of draws above the line"),
                         rows=tuple(rows), css="tolerable"))
     if n_lines:
-        blocks.append(Block("p", f"On the predictive curve the result lies above {n_exceed['predictive']} of "
-                                 f"{n_lines} comparisons; on the mode curve above {n_exceed['mode']}. The f-N point "
-                                 "uses the life loss caused by failure, ALL_inc = Σ P_f (L_breach − L_no_breach) m, "
-                                 "so N = ALL_inc / AFP is the average life loss given failure."))
+        text = (f"On the predictive curve the result lies above {n_exceed['predictive']} of {n_lines} lines; on the "
+                f"mode curve above {n_exceed['mode']}.")
+        if n_na["predictive"] or n_na["mode"]:
+            text += (f" {n_na['predictive']} (predictive) and {n_na['mode']} (mode curve) are not applicable: the "
+                     "f-N point's N lies outside the line's N range, or the F-N curve has no point in it; that is "
+                     "not the same as lying below the line.")
+        text += (" The f-N point uses the life loss caused by failure, ALL_inc = Σ P_f (L_breach − L_no_breach) m, "
+                 "so N = ALL_inc / AFP is the average life loss given failure; f-N points are compared with the "
+                 "f-N lines (annualized life loss and AFP), F-N limit lines with the F-N curve.")
+        blocks.append(Block("p", text))
+        conf = ("Confidence: the last column is the weighted share of the epistemic Monte Carlo draws whose figure "
+                "lies above the line (for an F-N limit line, whose F-N curve exceeds it anywhere in its N range); "
+                "the share of draws to which the line does not apply is given in brackets when there are any.")
+        if basis:
+            conf += " Draws used: " + "; ".join(basis) + "."
+        conf += (" The predictive figure is the mean over the draws, so it can lie above a line while fewer than "
+                 "half of the draws do: a few draws with large risk raise the mean.")
+        blocks.append(Block("p", conf))
+    if n_not_assessed:
+        blocks.append(Block("p", f"{n_not_assessed} individual-risk line(s) are not assessed: riskcalc does not "
+                                 "compute individual risk (the annual probability of death of the person most at "
+                                 "risk)."))
     blocks.append(Block("p", "Sources of the lines:"))
     blocks.append(Block("list", items=tuple(f"{ref[s]} {s}" for s in sources)))
     return blocks
