@@ -39,6 +39,9 @@ def summary_dict(result) -> dict:
         "common_cause_adjustment": "proportional: P_f P_i / sum_j P_j, so the adjusted failure-mode values add "
                                    "up to the system value"}
     out["ensemble_size"] = r.ensemble_size.as_dict()
+    from ..decision.reference_checks import reference_checks
+
+    out["reference_lines"] = reference_checks(r)
     out["truncation"] = r.truncation.as_dict()
     out["extrapolation"] = r.extrapolation.as_dict()
     out["sensitivity"] = r.sensitivity

@@ -394,6 +394,10 @@ class ChainOnPoints:
                 lp += np.log1p(-q)
         return -np.expm1(lp)
 
+    def max_incremental_life_loss(self) -> float:
+        """Largest nominal incremental life loss at the points (over the quadrature nodes)."""
+        return float(np.max(self.incremental_life_loss(), initial=0.0))
+
     def curves(self) -> dict:
         """Nominal stage, P_f, failure-mode probabilities and consequences at the points, without natural
         variability (for tables and figures): dict of (P,) arrays."""
