@@ -16,6 +16,9 @@ demo: $(BIN)/.installed
 	$(BIN)/riskcalc run scenarios/amberlow_alternatives/scenario.toml --out out/amberlow_alternatives --overwrite
 
 test: $(BIN)/.installed
+	$(BIN)/ruff check .
+	$(BIN)/ruff format --check .
+	$(BIN)/mypy
 	$(BIN)/python -m pytest -q
 
 bench: $(BIN)/.installed

@@ -31,8 +31,13 @@ def case_floor(R, Q):
     grid = quantity_grid(sc.ensemble, n=Q)
     cols = [sc.ensemble.params[k][:, None] for k in ("mean", "sd", "skew")]
     t = best_of(lambda: lp3_aep(grid, *cols))
-    return {"case": "floor: one vectorized AEP evaluation (R, Q), one thread", "R": R, "Q": Q, "seconds": t,
-            "peak_rss_mb": peak_rss_mb()}
+    return {
+        "case": "floor: one vectorized AEP evaluation (R, Q), one thread",
+        "R": R,
+        "Q": Q,
+        "seconds": t,
+        "peak_rss_mb": peak_rss_mb(),
+    }
 
 
 def case_chain(R, Q, workers=None):
@@ -42,8 +47,13 @@ def case_chain(R, Q, workers=None):
     with tmpdir() as d:
         sc = load_scenario(write_scenario(d, R, Q))
         t = best_of(lambda: assess(sc, workers=workers), repeat=2 if R * Q > 1e8 else 3)
-    return {"case": f"riskcalc full chain (assess, 2 failure modes), workers={workers or 'default'}", "R": R,
-            "Q": Q, "seconds": t, "peak_rss_mb": peak_rss_mb()}
+    return {
+        "case": f"riskcalc full chain (assess, 2 failure modes), workers={workers or 'default'}",
+        "R": R,
+        "Q": Q,
+        "seconds": t,
+        "peak_rss_mb": peak_rss_mb(),
+    }
 
 
 def case_loop(R, Q, subset=2000):
@@ -64,8 +74,9 @@ def case_loop(R, Q, subset=2000):
         rq, rh = model.rating.discharge, model.rating.stage
         cs = model.consequences
         for r in range(n):
-            p = stats.pearson3.sf(np.log10(grid), ens.params["skew"][r], loc=ens.params["mean"][r],
-                                  scale=ens.params["sd"][r])
+            p = stats.pearson3.sf(
+                np.log10(grid), ens.params["skew"][r], loc=ens.params["mean"][r], scale=ens.params["sd"][r]
+            )
             h = np.interp(np.log10(grid), np.log10(rq), rh)
             p1 = stats.lognorm.cdf(np.maximum(h - 5.0, 1e-12), 0.5, scale=0.4)
             p2 = stats.norm.cdf(h, 4.5, 1.0) * stats.norm.cdf(h, 3.0, 2.0)
@@ -80,8 +91,13 @@ def case_loop(R, Q, subset=2000):
         return out
 
     t = best_of(loop, repeat=1) * (R / n)
-    return {"case": f"plain loop (scipy.stats per realization; timed on {n}, scaled to R)", "R": R, "Q": Q,
-            "seconds": t, "peak_rss_mb": peak_rss_mb()}
+    return {
+        "case": f"plain loop (scipy.stats per realization; timed on {n}, scaled to R)",
+        "R": R,
+        "Q": Q,
+        "seconds": t,
+        "peak_rss_mb": peak_rss_mb(),
+    }
 
 
 def case_memory(R, Q):
@@ -94,8 +110,13 @@ def case_memory(R, Q):
         sc = load_scenario(write_scenario(d, R, Q))
         t0 = time.perf_counter()
         assess(sc)
-    return {"case": "peak memory, chunked full chain", "R": R, "Q": Q, "seconds": time.perf_counter() - t0,
-            "peak_rss_mb": peak_rss_mb()}
+    return {
+        "case": "peak memory, chunked full chain",
+        "R": R,
+        "Q": Q,
+        "seconds": time.perf_counter() - t0,
+        "peak_rss_mb": peak_rss_mb(),
+    }
 
 
 def case_grid(R, Q):
@@ -112,10 +133,13 @@ def case_grid(R, Q):
         t = best_of(lambda q=q: assess(sc, grid_points=q), repeat=2)
         out["points"][q] = {
             "seconds": t,
-            "afp_rel_error": abs(h["annual_failure_probability"]["predictive"] /
-                                 ref["annual_failure_probability"]["predictive"] - 1),
-            "ead_rel_error": abs(h["expected_annual_damage"]["predictive"] /
-                                 ref["expected_annual_damage"]["predictive"] - 1)}
+            "afp_rel_error": abs(
+                h["annual_failure_probability"]["predictive"] / ref["annual_failure_probability"]["predictive"] - 1
+            ),
+            "ead_rel_error": abs(
+                h["expected_annual_damage"]["predictive"] / ref["expected_annual_damage"]["predictive"] - 1
+            ),
+        }
     return out
 
 
@@ -132,8 +156,15 @@ def case_propagate(R, Q):
     return {"case": "propagation only", "R": R, "Q": Q, "seconds": t, "peak_rss_mb": peak_rss_mb()}
 
 
-CASES = {"propagate": case_propagate, "floor": case_floor, "chain": case_chain, "chain1": lambda R, Q: case_chain(R, Q, workers=1),
-         "loop": case_loop, "memory": case_memory, "grid": case_grid}
+CASES = {
+    "propagate": case_propagate,
+    "floor": case_floor,
+    "chain": case_chain,
+    "chain1": lambda R, Q: case_chain(R, Q, workers=1),
+    "loop": case_loop,
+    "memory": case_memory,
+    "grid": case_grid,
+}
 
 
 def fit_exponent(x, t):
@@ -146,10 +177,16 @@ def growth():
     for case, label in (("chain", "whole chain"), ("propagate", "propagation only")):
         tR = [in_child(__file__, case, r, 2000)["seconds"] for r in Rs]
         tQ = [in_child(__file__, case, 10000, q)["seconds"] for q in Qs]
-        print(json.dumps({"case": f"growth in R (Q = 2000), {label}", "R": Rs, "seconds": tR,
-                          "exponent": fit_exponent(Rs, tR)}))
-        print(json.dumps({"case": f"growth in Q (R = 10000), {label}", "Q": Qs, "seconds": tQ,
-                          "exponent": fit_exponent(Qs, tQ)}))
+        print(
+            json.dumps(
+                {"case": f"growth in R (Q = 2000), {label}", "R": Rs, "seconds": tR, "exponent": fit_exponent(Rs, tR)}
+            )
+        )
+        print(
+            json.dumps(
+                {"case": f"growth in Q (R = 10000), {label}", "Q": Qs, "seconds": tQ, "exponent": fit_exponent(Qs, tQ)}
+            )
+        )
 
 
 def main(quick=False):
@@ -166,11 +203,19 @@ def main(quick=False):
     print(json.dumps({**small, "case": "riskcalc full chain on a 250-point grid (AFP, EAD within 0.1 % of 20,000)"}))
     if not quick:
         growth()
-    print(json.dumps({"case": "ratios", "chain_over_floor": res["chain"]["seconds"] / res["floor"]["seconds"],
-                      "chain_one_thread_over_floor": res["chain1"]["seconds"] / res["floor"]["seconds"],
-                      "loop_over_chain": res["loop"]["seconds"] / res["chain"]["seconds"],
-                      "loop_over_chain_250_point_grid": res["loop"]["seconds"] / small["seconds"],
-                      "memory_R": mem["R"], "memory_peak_mb": mem["peak_rss_mb"]}))
+    print(
+        json.dumps(
+            {
+                "case": "ratios",
+                "chain_over_floor": res["chain"]["seconds"] / res["floor"]["seconds"],
+                "chain_one_thread_over_floor": res["chain1"]["seconds"] / res["floor"]["seconds"],
+                "loop_over_chain": res["loop"]["seconds"] / res["chain"]["seconds"],
+                "loop_over_chain_250_point_grid": res["loop"]["seconds"] / small["seconds"],
+                "memory_R": mem["R"],
+                "memory_peak_mb": mem["peak_rss_mb"],
+            }
+        )
+    )
 
 
 if __name__ == "__main__":

@@ -51,8 +51,14 @@ def main():
         out = subprocess.run([sys.executable, __file__, name], capture_output=True, text=True, check=True).stdout
         print(out.strip())
         results[name] = json.loads(out)
-    print(json.dumps({"case": "ratio curves / floor",
-                      "ratio": round(results["curves"]["seconds"] / results["floor"]["seconds"], 3)}))
+    print(
+        json.dumps(
+            {
+                "case": "ratio curves / floor",
+                "ratio": round(results["curves"]["seconds"] / results["floor"]["seconds"], 3),
+            }
+        )
+    )
 
 
 if __name__ == "__main__":

@@ -40,19 +40,37 @@ def setup(natural):
     ens = HazardEnsemble(family="lp3", weights=np.full(R, 1 / R), params=params)
     grid = quantity_grid(ens, n=Q)
     rating = RatingCurve(np.array([10.0, 100, 1000, 10000, 1e5, 1e6]), np.array([1.0, 2.0, 4.0, 7.0, 11.0, 16.0]))
-    modes = (FailureMode("overtopping", (FragilityCurve("normal", median=7.5, spread=0.4),)),
-             FailureMode("seepage", (FragilityCurve("lognormal", median=5.0, spread=0.3, datum=1.0),)))
+    modes = (
+        FailureMode("overtopping", (FragilityCurve("normal", median=7.5, spread=0.4),)),
+        FailureMode("seepage", (FragilityCurve("lognormal", median=5.0, spread=0.3, datum=1.0),)),
+    )
     st = np.array([2.0, 4.0, 6.0, 9.0, 12.0])
-    cons = ConsequenceCurves(st, np.array([0, 1e6, 5e6, 2e7, 4e7]), np.array([0, 0, 1e6, 5e6, 1e7]),
-                             np.array([0, 1, 10, 50, 120.0]), np.zeros(5))
-    registry = unc.UncertainInputs((
-        unc.rating_offset(0.1),
-        unc.fragility_shift(0, "overtopping", 0.2), unc.fragility_spread(0, "overtopping", 0.8, 1.25),
-        unc.fragility_shift(1, "seepage", 0.3), unc.fragility_spread(1, "seepage", 0.7, 1.3),
-        unc.consequence_factor("damage", "triangular", low=0.8, mode=1.0, high=1.3),
-        unc.consequence_factor("life_loss", "lognormal", median=1.0, beta=0.4)), n_failure_modes=2)
-    model = ResponseChain(failure_modes=modes, consequences=cons, rating=rating,
-                          natural=StageSpread(0.15) if natural else None, uncertain=registry)
+    cons = ConsequenceCurves(
+        st,
+        np.array([0, 1e6, 5e6, 2e7, 4e7]),
+        np.array([0, 0, 1e6, 5e6, 1e7]),
+        np.array([0, 1, 10, 50, 120.0]),
+        np.zeros(5),
+    )
+    registry = unc.UncertainInputs(
+        (
+            unc.rating_offset(0.1),
+            unc.fragility_shift(0, "overtopping", 0.2),
+            unc.fragility_spread(0, "overtopping", 0.8, 1.25),
+            unc.fragility_shift(1, "seepage", 0.3),
+            unc.fragility_spread(1, "seepage", 0.7, 1.3),
+            unc.consequence_factor("damage", "triangular", low=0.8, mode=1.0, high=1.3),
+            unc.consequence_factor("life_loss", "lognormal", median=1.0, beta=0.4),
+        ),
+        n_failure_modes=2,
+    )
+    model = ResponseChain(
+        failure_modes=modes,
+        consequences=cons,
+        rating=rating,
+        natural=StageSpread(0.15) if natural else None,
+        uncertain=registry,
+    )
     return ens, model, grid
 
 
@@ -69,24 +87,37 @@ def case(name):
     drv = build_driver(ens, model, grid, workers=workers)
     t1 = time.perf_counter()
     factors = scenario_factors(model)
-    res = sobol_indices(drv.unit_model(factors), [f.salib_factor() for f in factors], n, seed=SEED,
-                        n_resamples=100)
+    res = sobol_indices(drv.unit_model(factors), [f.salib_factor() for f in factors], n, seed=SEED, n_resamples=100)
     t2 = time.perf_counter()
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     afp = res["annual_failure_probability"]
     cpu = resource.getrusage(resource.RUSAGE_SELF)
-    print(json.dumps({"case": name, "R": R, "Q": Q, "N": n, "factors": len(factors),
-                      "model_evaluations": afp.n_evaluations, "workers": drv.workers,
-                      "precompute_seconds": round(t1 - t0, 3), "sobol_seconds": round(t2 - t1, 3),
-                      "total_seconds": round(t2 - t0, 3),
-                      "process_cpu_seconds": round(cpu.ru_utime + cpu.ru_stime, 2), "peak_rss_mb": round(peak, 1),
-                      "afp_ST": {f: round(float(v), 3) for f, v in zip(afp.factors, afp.ST)}}))
+    print(
+        json.dumps(
+            {
+                "case": name,
+                "R": R,
+                "Q": Q,
+                "N": n,
+                "factors": len(factors),
+                "model_evaluations": afp.n_evaluations,
+                "workers": drv.workers,
+                "precompute_seconds": round(t1 - t0, 3),
+                "sobol_seconds": round(t2 - t1, 3),
+                "total_seconds": round(t2 - t0, 3),
+                "process_cpu_seconds": round(cpu.ru_utime + cpu.ru_stime, 2),
+                "peak_rss_mb": round(peak, 1),
+                "afp_ST": {f: round(float(v), 3) for f, v in zip(afp.factors, afp.ST)},
+            }
+        )
+    )
 
 
 def main(names):
     for name in names:
-        out = subprocess.run([sys.executable, __file__, "--case", name], capture_output=True, text=True,
-                             check=True).stdout
+        out = subprocess.run(
+            [sys.executable, __file__, "--case", name], capture_output=True, text=True, check=True
+        ).stdout
         print(out.strip(), flush=True)
 
 

@@ -17,8 +17,10 @@ from pathlib import Path
 import numpy as np
 
 RATING = "discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,4.0\n10000,7.0\n100000,11.0\n1000000,15.0\n"
-CONSEQ = ("stage_m,damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
-          "2.0,0,0,0\n4.0,1.0e6,0,1\n6.0,5.0e6,1.0e6,10\n9.0,2.0e7,5.0e6,50\n15.0,5.0e7,2.0e7,200\n")
+CONSEQ = (
+    "stage_m,damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
+    "2.0,0,0,0\n4.0,1.0e6,0,1\n6.0,5.0e6,1.0e6,10\n9.0,2.0e7,5.0e6,50\n15.0,5.0e7,2.0e7,200\n"
+)
 SCENARIO = """
 title = "benchmark (invented)"
 seed = 1

@@ -59,7 +59,7 @@ def split_unit(name: str, quantities) -> tuple[str, str | None] | None:
         if name == q:
             return q, None
         if name.startswith(q + "_") and len(name) > len(q) + 1:
-            return q, name[len(q) + 1:]
+            return q, name[len(q) + 1 :]
     return None
 
 
@@ -84,8 +84,9 @@ class Table:
         j = self.columns.index(name)
         return [r[j] for r in self.cells]
 
-    def numbers(self, name: str, *, positive=False, nonnegative=False, lo=None, hi=None,
-                what="a finite number") -> np.ndarray:
+    def numbers(
+        self, name: str, *, positive=False, nonnegative=False, lo=None, hi=None, what="a finite number"
+    ) -> np.ndarray:
         """Column ``name`` as floats, refusing text, blanks, NaN, infinities and out-of-range values."""
         j = self.columns.index(name)
         out = np.empty(len(self.cells))
@@ -96,11 +97,11 @@ class Table:
             try:
                 v = float(raw)
             except ValueError:
-                raise InputError(f"'{_short(raw)}' is not a number; expected {what}", self.path,
-                                 row=row, column=name) from None
+                raise InputError(
+                    f"'{_short(raw)}' is not a number; expected {what}", self.path, row=row, column=name
+                ) from None
             if not math.isfinite(v):
-                raise InputError(f"'{_short(raw)}' is not finite; expected {what}", self.path,
-                                 row=row, column=name)
+                raise InputError(f"'{_short(raw)}' is not finite; expected {what}", self.path, row=row, column=name)
             if positive and not v > 0:
                 raise InputError(f"{raw} must be greater than 0", self.path, row=row, column=name)
             if nonnegative and v < 0:
@@ -122,7 +123,9 @@ class Table:
             raise InputError(
                 f"missing column '{missing[0]}' in the {what}; expected columns "
                 f"{', '.join(required)}" + (f" (optional: {', '.join(optional)})" if optional else ""),
-                self.path, row=self.header_row)
+                self.path,
+                row=self.header_row,
+            )
         if not allow_extra:
             known = set(required) | set(optional)
             for c in self.columns:
@@ -130,7 +133,10 @@ class Table:
                     raise InputError(
                         f"unknown column '{c}' in the {what}; expected "
                         f"{', '.join(required)}" + (f" (optional: {', '.join(optional)})" if optional else ""),
-                        self.path, row=self.header_row, column=c)
+                        self.path,
+                        row=self.header_row,
+                        column=c,
+                    )
 
 
 def _short(s: str, n: int = 30) -> str:
@@ -151,8 +157,9 @@ def _read_csv_rows(path: Path):
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         line = raw[: exc.start].count(b"\n") + 1
-        raise InputError(f"byte 0x{raw[exc.start]:02x} is not UTF-8 text; save the file as UTF-8",
-                         path, row=line) from None
+        raise InputError(
+            f"byte 0x{raw[exc.start]:02x} is not UTF-8 text; save the file as UTF-8", path, row=line
+        ) from None
     lines = text.splitlines()
     out = []
     reader = csv.reader(lines)
@@ -228,7 +235,7 @@ def read_table(path, *, what="table", sheet=None) -> Table:
         raise InputError(f"the {what} has a header but no data rows", path, row=header_row)
     cells, numbers = [], []
     for lineno, r in data:
-        if len(r) > len(columns) and any(c.strip() for c in r[len(columns):]):
+        if len(r) > len(columns) and any(c.strip() for c in r[len(columns) :]):
             raise InputError(f"row has {len(r)} cells but the header has {len(columns)}", path, row=lineno)
         r = list(r[: len(columns)]) + [""] * max(0, len(columns) - len(r))
         cells.append(r)

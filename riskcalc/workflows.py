@@ -27,8 +27,16 @@ from .io import atomic_output_dir, write_csv
 from .outputs.figures import plot_hazard
 from .outputs.tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
 
-__all__ = ["hazard_step", "check_scenario", "run_scenario", "sensitivity_workflow", "compare_workflow",
-           "memo_workflow", "find_chromium", "print_pdf"]
+__all__ = [
+    "hazard_step",
+    "check_scenario",
+    "run_scenario",
+    "sensitivity_workflow",
+    "compare_workflow",
+    "memo_workflow",
+    "find_chromium",
+    "print_pdf",
+]
 
 
 def _refuse_nonempty(out, overwrite):
@@ -39,8 +47,21 @@ def _refuse_nonempty(out, overwrite):
     return out
 
 
-def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, level=0.9, aep_max=0.999,
-                aep_min=1e-7, n_grid=2000, overwrite=False, figure=True, title=None):
+def hazard_step(
+    ensemble_path,
+    family,
+    out,
+    *,
+    quantity="discharge",
+    unit=None,
+    level=0.9,
+    aep_max=0.999,
+    aep_min=1e-7,
+    n_grid=2000,
+    overwrite=False,
+    figure=True,
+    title=None,
+):
     """Read an ensemble, compute its summary curves and write the hazard tables and figure.
 
     Returns
@@ -71,8 +92,12 @@ def hazard_step(ensemble_path, family, out, *, quantity="discharge", unit=None, 
         write_csv(Path(tmp) / f"hazard_by_{curves.quantity}.csv", hazard_by_quantity(curves))
         write_csv(Path(tmp) / "hazard_by_aep.csv", hazard_by_aep(curves))
         if figure:
-            plot_hazard(curves, ens, Path(tmp) / "figures" / "hazard_ensemble",
-                        title=title or f"Hazard ensemble ({ens.size} realizations, {ens.family})")
+            plot_hazard(
+                curves,
+                ens,
+                Path(tmp) / "figures" / "hazard_ensemble",
+                title=title or f"Hazard ensemble ({ens.size} realizations, {ens.family})",
+            )
     return curves, summary
 
 
@@ -134,8 +159,9 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
 
     if sensitivity_enabled(sc):
         report = sensitivity_for_run(sc, result, workers=workers)
-        result = dataclasses.replace(result, sensitivity=report.summary(),
-                                     warnings=[*result.warnings, *report.warnings])
+        result = dataclasses.replace(
+            result, sensitivity=report.summary(), warnings=[*result.warnings, *report.warnings]
+        )
     comparison = None
     if sc.alternatives:
         from .decision.alternatives import compare
@@ -143,13 +169,25 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
 
         comparison = compare(sc, workers=workers)
         attach_memo_section(result, comparison, figures=figures and sc.outputs.get("figures", True))
-    write_run_outputs(result, out, overwrite=overwrite, figures=figures, sensitivity_report=report,
-                      comparison=comparison)
+    write_run_outputs(
+        result, out, overwrite=overwrite, figures=figures, sensitivity_report=report, comparison=comparison
+    )
     return result
 
 
-def sensitivity_workflow(scenario_path, out, *, n=None, seed=None, second_order=None, target_width=None,
-                         morris=None, overwrite=False, workers=None, figures=True):
+def sensitivity_workflow(
+    scenario_path,
+    out,
+    *,
+    n=None,
+    seed=None,
+    second_order=None,
+    target_width=None,
+    morris=None,
+    overwrite=False,
+    workers=None,
+    figures=True,
+):
     """``riskcalc sensitivity``: load, run the chain, compute the report and write it into ``out`` atomically.
 
     Command-line values override the scenario's ``[sensitivity]`` table.
@@ -168,10 +206,20 @@ def sensitivity_workflow(scenario_path, out, *, n=None, seed=None, second_order=
 
     out = _refuse_nonempty(out, overwrite)
     sc_ = load_scenario(scenario_path)
-    overrides = {"n": n, "seed": seed, "second_order": second_order or None, "target_width": target_width,
-                 "morris": morris or None}
-    settings = read_settings(sc_.raw.get("sensitivity"), sc_.path, default_seed=sc_.seed, overrides=overrides,
-                             factors=scenario_factors(sc_.model))
+    overrides = {
+        "n": n,
+        "seed": seed,
+        "second_order": second_order or None,
+        "target_width": target_width,
+        "morris": morris or None,
+    }
+    settings = read_settings(
+        sc_.raw.get("sensitivity"),
+        sc_.path,
+        default_seed=sc_.seed,
+        overrides=overrides,
+        factors=scenario_factors(sc_.model),
+    )
     result = assess(sc_, workers=workers)
     report = sensitivity_for_run(sc_, result, settings, workers=workers)
     report = dataclasses.replace(report, provenance={**result.provenance, **report.provenance})
@@ -203,11 +251,20 @@ def compare_workflow(scenario_path, out, *, overwrite=False, workers=None):
 # The memo of a finished run, and its PDF
 # --------------------------------------------------------------------------
 #: Flags for a headless Chromium that makes no network requests of its own.
-CHROMIUM_FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                  "--disable-component-update", "--disable-sync", "--no-first-run")
+CHROMIUM_FLAGS = (
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+)
 
-_NO_CHROMIUM = ("--pdf needs Chromium, which was not found on PATH; install it (Debian: apt-get install chromium) "
-                "or open memo.html in a browser and print it")
+_NO_CHROMIUM = (
+    "--pdf needs Chromium, which was not found on PATH; install it (Debian: apt-get install chromium) "
+    "or open memo.html in a browser and print it"
+)
 
 
 def find_chromium() -> str | None:
@@ -233,8 +290,14 @@ def print_pdf(html_path, pdf_path, *, timeout=120) -> Path:
     html_path, pdf_path = Path(html_path).resolve(), Path(pdf_path).resolve()
     part = pdf_path.with_name(f".{pdf_path.name}.partial")
     with tempfile.TemporaryDirectory(prefix="riskcalc-chromium-") as profile:
-        cmd = [exe, *CHROMIUM_FLAGS, f"--user-data-dir={profile}", "--no-pdf-header-footer",
-               f"--print-to-pdf={part}", html_path.as_uri()]
+        cmd = [
+            exe,
+            *CHROMIUM_FLAGS,
+            f"--user-data-dir={profile}",
+            "--no-pdf-header-footer",
+            f"--print-to-pdf={part}",
+            html_path.as_uri(),
+        ]
         try:
             proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout)
         except subprocess.TimeoutExpired:
@@ -272,9 +335,23 @@ def memo_workflow(outdir, *, pdf=False) -> list[Path]:
 # riskcalc portfolio: many scenarios, serial or on a dask.distributed cluster
 # --------------------------------------------------------------------------
 PORTFOLIO_COLUMNS = (
-    "scenario", "path", "status", "error", "afp_predictive_per_yr", "afp_mode_per_yr", "afp_ratio",
-    "ead_predictive_per_yr", "ead_mode_per_yr", "ead_ratio", "all_predictive_lives_per_yr", "all_mode_lives_per_yr",
-    "all_ratio", "truncation_aep_above_grid", "currency", "warnings")
+    "scenario",
+    "path",
+    "status",
+    "error",
+    "afp_predictive_per_yr",
+    "afp_mode_per_yr",
+    "afp_ratio",
+    "ead_predictive_per_yr",
+    "ead_mode_per_yr",
+    "ead_ratio",
+    "all_predictive_lives_per_yr",
+    "all_mode_lives_per_yr",
+    "all_ratio",
+    "truncation_aep_above_grid",
+    "currency",
+    "warnings",
+)
 
 
 def collect_scenarios(paths) -> list[Path]:
@@ -297,7 +374,7 @@ def collect_scenarios(paths) -> list[Path]:
             for i, line in enumerate(p.read_text(encoding="utf-8").splitlines(), start=1):
                 line = line.strip()
                 if line and not line.startswith("#"):
-                    q = (p.parent / line)
+                    q = p.parent / line
                     if not q.exists():
                         raise InputError(f"scenario '{line}' not found", p, row=i)
                     out.append(q)
@@ -327,8 +404,11 @@ def run_one(path, outdir, name, threads=1) -> dict:
     try:
         res = run_scenario(path, outdir, overwrite=True, workers=threads)
         s = res.summary()
-        for short, key in (("afp", "annual_failure_probability"), ("ead", "expected_annual_damage"),
-                           ("all", "annualized_life_loss")):
+        for short, key in (
+            ("afp", "annual_failure_probability"),
+            ("ead", "expected_annual_damage"),
+            ("all", "annualized_life_loss"),
+        ):
             unit = "lives_per_yr" if short == "all" else "per_yr"
             row[f"{short}_predictive_{unit}"] = s[key]["predictive"]
             row[f"{short}_mode_{unit}"] = s[key]["mode"]
@@ -389,12 +469,16 @@ def _run_distributed(jobs, workers, scheduler, progress):
     if scheduler:
         client = Client(scheduler)
     else:
-        cluster = LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True, dashboard_address=None,
-                               silence_logs=logging.ERROR)
+        cluster = LocalCluster(
+            n_workers=int(workers),
+            threads_per_worker=1,
+            processes=True,
+            dashboard_address=None,
+            silence_logs=logging.ERROR,
+        )
         client = Client(cluster)
     try:
-        futures = [client.submit(run_one, *job, pure=False, key=f"riskcalc-{i}-{job[2]}")
-                   for i, job in enumerate(jobs)]
+        futures = [client.submit(run_one, *job, pure=False, key=f"riskcalc-{i}-{job[2]}") for i, job in enumerate(jobs)]
         for done, _ in enumerate(as_completed(futures), start=1):
             if progress:
                 progress(done, len(futures))

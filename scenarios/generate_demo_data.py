@@ -88,28 +88,42 @@ def write(path, header, rows, comment):
 
 def main():
     d, lp = levee_ensemble(np.random.default_rng(20261202))
-    write(HERE / "amberlow_levee" / "ensemble_lp3.csv", ["realization", "mean", "sd", "skew", "log_posterior"],
-          [(i + 1, float(a), float(b), float(c), float(e)) for i, ((a, b, c), e) in enumerate(zip(d, lp))],
-          ["INVENTED DATA for the riskcalc demo: Kestrel River at Amberlow (a fictional river and town).",
-           "Posterior sample of log-Pearson III parameters of log10 annual peak discharge [m3/s].",
-           "Regenerate with: python scenarios/generate_demo_data.py"])
+    write(
+        HERE / "amberlow_levee" / "ensemble_lp3.csv",
+        ["realization", "mean", "sd", "skew", "log_posterior"],
+        [(i + 1, float(a), float(b), float(c), float(e)) for i, ((a, b, c), e) in enumerate(zip(d, lp))],
+        [
+            "INVENTED DATA for the riskcalc demo: Kestrel River at Amberlow (a fictional river and town).",
+            "Posterior sample of log-Pearson III parameters of log10 annual peak discharge [m3/s].",
+            "Regenerate with: python scenarios/generate_demo_data.py",
+        ],
+    )
     # the 2070 condition of the alternatives scenario: every realization's log10 mean raised by 0.02
     # (about 4.7 % higher discharges; an invented change), row r the future of realization r
-    write(HERE / "amberlow_alternatives" / "ensemble_lp3_2070.csv",
-          ["realization", "mean", "sd", "skew", "log_posterior"],
-          [(i + 1, float(a) + 0.02, float(b), float(c), float(e)) for i, ((a, b, c), e) in enumerate(zip(d, lp))],
-          ["INVENTED DATA for the riskcalc demo: Kestrel River at Amberlow (a fictional river and town), "
-           "future condition 2070.",
-           "The base ensemble (../amberlow_levee/ensemble_lp3.csv) with every realization's mean of log10 discharge "
-           "raised by 0.02",
-           "(discharges about 4.7 % higher, an invented change of climate and land use); row r is the future of "
-           "realization r."])
+    write(
+        HERE / "amberlow_alternatives" / "ensemble_lp3_2070.csv",
+        ["realization", "mean", "sd", "skew", "log_posterior"],
+        [(i + 1, float(a) + 0.02, float(b), float(c), float(e)) for i, ((a, b, c), e) in enumerate(zip(d, lp))],
+        [
+            "INVENTED DATA for the riskcalc demo: Kestrel River at Amberlow (a fictional river and town), "
+            "future condition 2070.",
+            "The base ensemble (../amberlow_levee/ensemble_lp3.csv) with every realization's mean of log10 discharge "
+            "raised by 0.02",
+            "(discharges about 4.7 % higher, an invented change of climate and land use); row r is the future of "
+            "realization r.",
+        ],
+    )
     d, lp = dam_ensemble(np.random.default_rng(7301))
-    write(HERE / "tarnhollow_dam" / "inflow_gev.csv", ["realization", "location", "scale", "shape", "log_posterior"],
-          [(i + 1, float(a), float(b), float(c), float(e)) for i, ((a, b, c), e) in enumerate(zip(d, lp))],
-          ["INVENTED DATA for the riskcalc demo: Tarnhollow Dam (a fictional dam).",
-           "Posterior sample of GEV parameters (hydrology sign: shape > 0 bounded above) of annual peak inflow [m3/s].",
-           "Regenerate with: python scenarios/generate_demo_data.py"])
+    write(
+        HERE / "tarnhollow_dam" / "inflow_gev.csv",
+        ["realization", "location", "scale", "shape", "log_posterior"],
+        [(i + 1, float(a), float(b), float(c), float(e)) for i, ((a, b, c), e) in enumerate(zip(d, lp))],
+        [
+            "INVENTED DATA for the riskcalc demo: Tarnhollow Dam (a fictional dam).",
+            "Posterior sample of GEV parameters (hydrology sign: shape > 0 bounded above) of annual peak inflow [m3/s].",
+            "Regenerate with: python scenarios/generate_demo_data.py",
+        ],
+    )
 
 
 if __name__ == "__main__":

@@ -22,20 +22,34 @@ def _fixed_run_date(monkeypatch):
     """Outputs carry the run date; fix it so byte-identity tests cannot straddle midnight."""
     monkeypatch.setenv("SOURCE_DATE_EPOCH", "1798761600")  # 2027-01-01
 
+
 RATING = "discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,4.0\n10000,7.0\n100000,11.0\n"
-CONSEQ = ("stage_m,damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
-          "2.0,0,0,0\n4.0,1.0e6,0,1\n6.0,5.0e6,1.0e6,10\n9.0,2.0e7,5.0e6,50\n")
+CONSEQ = (
+    "stage_m,damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
+    "2.0,0,0,0\n4.0,1.0e6,0,1\n6.0,5.0e6,1.0e6,10\n9.0,2.0e7,5.0e6,50\n"
+)
 
 
-def write_scenario(folder: Path, *, toml_extra: str = "", ensemble: str | None = None, family: str = "lp3",
-                   rating: str | None = RATING, conseq: str = CONSEQ, variable: str = "discharge",
-                   modes: str | None = None, name: str = "scenario.toml") -> Path:
+def write_scenario(
+    folder: Path,
+    *,
+    toml_extra: str = "",
+    ensemble: str | None = None,
+    family: str = "lp3",
+    rating: str | None = RATING,
+    conseq: str = CONSEQ,
+    variable: str = "discharge",
+    modes: str | None = None,
+    name: str = "scenario.toml",
+) -> Path:
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     if ensemble is None:
         rng = np.random.default_rng(4)
-        rows = [f"{m:.6f},{s:.6f},{g:.6f}" for m, s, g in
-                zip(rng.normal(2.5, 0.05, 200), rng.uniform(0.2, 0.3, 200), rng.uniform(-0.3, 0.3, 200))]
+        rows = [
+            f"{m:.6f},{s:.6f},{g:.6f}"
+            for m, s, g in zip(rng.normal(2.5, 0.05, 200), rng.uniform(0.2, 0.3, 200), rng.uniform(-0.3, 0.3, 200))
+        ]
         ensemble = "mean,sd,skew\n" + "\n".join(rows) + "\n"
     (folder / "ensemble.csv").write_text(ensemble)
     if rating is not None:
@@ -68,10 +82,15 @@ def write_scenario(folder: Path, *, toml_extra: str = "", ensemble: str | None =
     [rating]
     table = "rating.csv"
     """
-    text = textwrap.dedent(text) + textwrap.dedent(modes) + textwrap.dedent("""
+    text = (
+        textwrap.dedent(text)
+        + textwrap.dedent(modes)
+        + textwrap.dedent("""
     [consequences]
     table = "consequences.csv"
-    """) + textwrap.dedent(toml_extra)
+    """)
+        + textwrap.dedent(toml_extra)
+    )
     path = folder / name
     path.write_text(text)
     return path
@@ -81,4 +100,5 @@ def write_scenario(folder: Path, *, toml_extra: str = "", ensemble: str | None =
 def scenario_factory(tmp_path):
     def make(**kw):
         return write_scenario(tmp_path / kw.pop("folder", "sc"), **kw)
+
     return make

@@ -23,8 +23,10 @@ ROOT = Path(__file__).resolve().parents[1]
 BUNDLED = ROOT / "scenarios" / "amberlow_alternatives" / "scenario.toml"
 
 # the conftest consequence table with every damage doubled (life loss unchanged)
-CONSEQ_X2 = ("stage_m,damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
-             "2.0,0,0,0\n4.0,2.0e6,0,1\n6.0,1.0e7,2.0e6,10\n9.0,4.0e7,1.0e7,50\n")
+CONSEQ_X2 = (
+    "stage_m,damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
+    "2.0,0,0,0\n4.0,2.0e6,0,1\n6.0,1.0e7,2.0e6,10\n9.0,4.0e7,1.0e7,50\n"
+)
 
 KNOWLEDGE = """
 damage_multiplier = { distribution = "triangular", low = 0.7, mode = 1.0, high = 1.4 }
@@ -82,10 +84,18 @@ def _alt(name, body="", cost=1.0e6):
 def test_alternative_identical_to_base_has_exactly_zero_benefit(scenario_factory):
     # Identity: the same model, the same realizations and the same random draws give the same risk
     # bit for bit, so the paired benefit is exactly 0 in every draw (no tolerance).
-    sc = _scenario(scenario_factory, ECON + _alt("same") + _alt("same table", """
+    sc = _scenario(
+        scenario_factory,
+        ECON
+        + _alt("same")
+        + _alt(
+            "same table",
+            """
     [alternatives.consequences]
     table = "consequences.csv"
-    """))
+    """,
+        ),
+    )
     c = al.compare(sc)
     assert c.draws_per_realization == 3 and c.weights.size == 3 * sc.ensemble.size
     for name in ("same", "same table"):
@@ -102,17 +112,35 @@ def test_alternative_identical_to_base_has_exactly_zero_benefit(scenario_factory
 def test_paired_differences_equal_difference_of_separate_runs_with_the_same_seed(scenario_factory):
     # Definition of pairing: each plan run alone through propagate with the scenario's seed and the
     # same chunk boundaries gives per-draw risks whose difference is the comparison's benefit, exactly.
-    sc = _scenario(scenario_factory, ECON + _alt("doubled damage", """
+    sc = _scenario(
+        scenario_factory,
+        ECON
+        + _alt(
+            "doubled damage",
+            """
     [alternatives.consequences]
     table = "consequences_x2.csv"
-    """))
+    """,
+        ),
+    )
     c = al.compare(sc)
     grid = c.grids[None]
     base_m, alt_m = al.plan_model(sc), al.plan_model(sc, [c.alternatives[0].override])
     rows = min(chunk_rows_for(m, grid.size) for m in (base_m, alt_m))
-    runs = [propagate(sc.ensemble, m, grid, seed=sc.seed, draws_per_realization=3, rule=sc.grid["rule"],
-                      log_spacing=sc.ensemble.log_scale, workers=1, chunk_rows=rows)
-            for m in (base_m, alt_m)]
+    runs = [
+        propagate(
+            sc.ensemble,
+            m,
+            grid,
+            seed=sc.seed,
+            draws_per_realization=3,
+            rule=sc.grid["rule"],
+            log_spacing=sc.ensemble.log_scale,
+            workers=1,
+            chunk_rows=rows,
+        )
+        for m in (base_m, alt_m)
+    ]
     b = runs[0].column("ead") - runs[1].column("ead")
     assert np.array_equal(c.economics["doubled damage"].expected_annual_benefit, b)
     # Common random numbers: doubling every damage doubles every draw's EAD (the damage multiplier and
@@ -126,7 +154,12 @@ def test_paired_differences_equal_difference_of_separate_runs_with_the_same_seed
 
 def test_a_changed_uncertainty_structure_is_flagged_unpaired(scenario_factory):
     # Adding a sampled parameter (a spread range) shifts the random stream: hazard still paired, response not.
-    sc = _scenario(scenario_factory, ECON + _alt("uncertain spread", """
+    sc = _scenario(
+        scenario_factory,
+        ECON
+        + _alt(
+            "uncertain spread",
+            """
     [[alternatives.failure_modes]]
     name = "breach"
     shift_sd = 0.2
@@ -136,7 +169,9 @@ def test_a_changed_uncertainty_structure_is_flagged_unpaired(scenario_factory):
       kind = "normal"
       median = 5.0
       spread = 0.5
-    """))
+    """,
+        ),
+    )
     c = al.compare(sc)
     assert not c.figures["uncertain spread"]["response_draws_paired"]
     assert any("not paired" in n for n in c.notes)
@@ -149,14 +184,19 @@ def test_a_changed_uncertainty_structure_is_flagged_unpaired(scenario_factory):
 def test_constant_future_condition_annualizes_to_the_base_year_value(scenario_factory):
     # A future year identical to the base year is a constant EAD; its equivalent annual value is itself
     # (weights (1+i)^-t / (P/A) sum to 1) to rounding: rtol 1e-12.
-    sc = _scenario(scenario_factory, """
+    sc = _scenario(
+        scenario_factory,
+        """
     [economics]
     rate = 0.05
     period_years = 30
     base_year = 2030
       [economics.future]
       year = 2050
-    """ + _alt("same"), knowledge=False)
+    """
+        + _alt("same"),
+        knowledge=False,
+    )
     c = al.compare(sc)
     for n in ("ead", "all", "afp"):
         np.testing.assert_allclose(c.equivalent[BASE_NAME][n], c.risks[BASE_NAME][0].values[n], rtol=1e-12)
@@ -168,7 +208,9 @@ def test_linear_damage_growth_against_the_arithmetic_gradient_factor(scenario_fa
     # whose equivalent annual value is E [1 + (f-1)/(T-1) (A/G, i, T)] with (A/G) = 1/i - T/((1+i)^T - 1)
     # (Newnan, Eschenbach & Lavelle, Engineering Economic Analysis, arithmetic gradient). rtol 1e-12.
     i, T, f = 0.05, 30, 1.6
-    sc = _scenario(scenario_factory, f"""
+    sc = _scenario(
+        scenario_factory,
+        f"""
     [economics]
     rate = {i}
     period_years = {T}
@@ -176,48 +218,69 @@ def test_linear_damage_growth_against_the_arithmetic_gradient_factor(scenario_fa
       [economics.future]
       year = {2030 + T - 1}
       damage_factor = {f}
-    """ + _alt("same"), knowledge=False)
+    """
+        + _alt("same"),
+        knowledge=False,
+    )
     c = al.compare(sc)
     e = c.risks[BASE_NAME][0].values["ead"]
     np.testing.assert_allclose(c.risks[BASE_NAME][1].values["ead"], f * e, rtol=1e-12)
     ag = 1 / i - T / ((1 + i) ** T - 1)
     np.testing.assert_allclose(c.equivalent[BASE_NAME]["ead"], e * (1 + (f - 1) / (T - 1) * ag), rtol=1e-12)
     # life loss has no growth here: constant, so it annualizes to itself
-    np.testing.assert_allclose(c.equivalent[BASE_NAME]["all"], c.risks[BASE_NAME][0].values["all"],
-                               rtol=1e-12)
+    np.testing.assert_allclose(c.equivalent[BASE_NAME]["all"], c.risks[BASE_NAME][0].values["all"], rtol=1e-12)
 
 
 def test_annualized_cost_and_headline_bcr(scenario_factory):
     # Headline BCR is mean benefit / annualized cost, not the mean of per-draw ratios (definition);
     # the annualized cost is (first cost + IDC) * CRF + O&M (economics module, tested against tables).
-    sc = _scenario(scenario_factory, ECON + _alt("doubled damage", """
+    sc = _scenario(
+        scenario_factory,
+        ECON
+        + _alt(
+            "doubled damage",
+            """
     [alternatives.consequences]
     table = "consequences_x2.csv"
-    """))
+    """,
+        ),
+    )
     c = al.compare(sc)
     f = c.figures["doubled damage"]
     cost = (1e6 + ec.interest_during_construction(1e6, 0.05, 12)) * ec.capital_recovery_factor(0.05, 30) + 1e4
     assert f["costs"]["annualized_cost_per_yr"] == pytest.approx(cost, rel=1e-12)
     assert f["benefit_cost_ratio"]["predictive"] == pytest.approx(
-        f["expected_annual_benefit_per_yr"]["predictive"] / cost, rel=1e-12)
+        f["expected_annual_benefit_per_yr"]["predictive"] / cost, rel=1e-12
+    )
 
 
 # --------------------------------------------------------------------------
 # Validation: InputError naming the key
 # --------------------------------------------------------------------------
-@pytest.mark.parametrize("extra, key", [
-    (_alt("a") + "[[alternatives]]\nname = \"b\"\n", "alternatives[2].first_cost"),
-    (_alt("a", cost=-5), "alternatives[1].first_cost"),
-    (_alt("a") + _alt("a"), "alternatives[2].name"),
-    (_alt("a", "colour = \"red\"\n"), "alternatives[1].colour"),
-    (_alt("a", "[alternatives.hazard]\nensemble = \"x.csv\"\n"), "alternatives[1].hazard"),
-    (_alt("a", "annual_om = \"lots\"\n").replace("annual_om = 1.0e4\n", ""), "alternatives[1].annual_om"),
-    (_alt("a", "[alternatives.consequences]\ntable = \"missing.csv\"\n"), None),
-    (_alt("a", "[[alternatives.failure_modes]]\nname = \"m\"\n  [[alternatives.failure_modes.nodes]]\n"
-               "  kind = \"weibull\"\n"), "alternatives[1].failure_modes[1].nodes[1].kind"),
-    (_alt("a", "[alternatives.uncertainty]\ndraws_per_realization = 7\n"),
-     "alternatives[1].uncertainty.draws_per_realization"),
-])
+@pytest.mark.parametrize(
+    "extra, key",
+    [
+        (_alt("a") + '[[alternatives]]\nname = "b"\n', "alternatives[2].first_cost"),
+        (_alt("a", cost=-5), "alternatives[1].first_cost"),
+        (_alt("a") + _alt("a"), "alternatives[2].name"),
+        (_alt("a", 'colour = "red"\n'), "alternatives[1].colour"),
+        (_alt("a", '[alternatives.hazard]\nensemble = "x.csv"\n'), "alternatives[1].hazard"),
+        (_alt("a", 'annual_om = "lots"\n').replace("annual_om = 1.0e4\n", ""), "alternatives[1].annual_om"),
+        (_alt("a", '[alternatives.consequences]\ntable = "missing.csv"\n'), None),
+        (
+            _alt(
+                "a",
+                '[[alternatives.failure_modes]]\nname = "m"\n  [[alternatives.failure_modes.nodes]]\n'
+                '  kind = "weibull"\n',
+            ),
+            "alternatives[1].failure_modes[1].nodes[1].kind",
+        ),
+        (
+            _alt("a", "[alternatives.uncertainty]\ndraws_per_realization = 7\n"),
+            "alternatives[1].uncertainty.draws_per_realization",
+        ),
+    ],
+)
 def test_bad_alternative_keys_name_the_key(scenario_factory, extra, key):
     path = _scenario(scenario_factory, ECON + extra, load=False)
     with pytest.raises(InputError) as info:
@@ -230,18 +293,26 @@ def test_bad_alternative_keys_name_the_key(scenario_factory, extra, key):
         assert "missing.csv" in msg and "alternatives[1]" in msg
 
 
-@pytest.mark.parametrize("econ, key", [
-    ("", "economics.rate"),
-    ("[economics]\nrate = 1.5\n", "economics.rate"),
-    ("[economics]\nrate = 0.03\nperiod_years = 0\n", "economics.period_years"),
-    ("[economics]\nrate = 0.03\ninterest = 2\n", "economics.interest"),
-    ("[economics]\nrate = 0.03\n[economics.future]\nyear = 2050\n", "economics.base_year"),
-    ("[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2030\n", "economics.future.year"),
-    ("[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2040\ndamage_factor = 0\n",
-     "economics.future.damage_factor"),
-    ("[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2040\n"
-     "hazard = { ensemble = \"short.csv\" }\n", "economics.future.hazard.ensemble"),
-])
+@pytest.mark.parametrize(
+    "econ, key",
+    [
+        ("", "economics.rate"),
+        ("[economics]\nrate = 1.5\n", "economics.rate"),
+        ("[economics]\nrate = 0.03\nperiod_years = 0\n", "economics.period_years"),
+        ("[economics]\nrate = 0.03\ninterest = 2\n", "economics.interest"),
+        ("[economics]\nrate = 0.03\n[economics.future]\nyear = 2050\n", "economics.base_year"),
+        ("[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2030\n", "economics.future.year"),
+        (
+            "[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2040\ndamage_factor = 0\n",
+            "economics.future.damage_factor",
+        ),
+        (
+            "[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2040\n"
+            'hazard = { ensemble = "short.csv" }\n',
+            "economics.future.hazard.ensemble",
+        ),
+    ],
+)
 def test_bad_economics_keys_name_the_key(scenario_factory, econ, key):
     path = _scenario(scenario_factory, econ + _alt("a"), knowledge=False, load=False)
     (path.parent / "short.csv").write_text("mean,sd,skew\n2.5,0.25,0.0\n2.6,0.25,0.0\n")
@@ -276,8 +347,14 @@ def bundled(tmp_path_factory):
 
 
 def test_compare_writes_every_output(bundled):
-    for rel in ("comparison.json", "comparison.md", "tables/alternatives.csv", "tables/paired_differences.csv",
-                "figures/benefit_distributions.png", "figures/benefit_distributions.svg"):
+    for rel in (
+        "comparison.json",
+        "comparison.md",
+        "tables/alternatives.csv",
+        "tables/paired_differences.csv",
+        "figures/benefit_distributions.png",
+        "figures/benefit_distributions.svg",
+    ):
         assert (bundled / rel).stat().st_size > 0, rel
     assert (bundled / "figures" / "benefit_distributions.png").stat().st_size > 10_000
     text = (bundled / "comparison.md").read_text()
@@ -295,14 +372,17 @@ def test_bundled_ranking_and_mean_versus_mode(bundled):
     assert d["ranking"]["changes_between_predictive_and_mode"] == (by_pred != by_mode)
     # a posterior ensemble's predictive curve is heavier in the tail than its mode curve, so the mode
     # understates the risk without project and every benefit here (common practice; design notes)
-    assert d["without_project"]["expected_annual_damage_per_yr"]["predictive"] > \
-        d["without_project"]["expected_annual_damage_per_yr"]["mode"]
+    assert (
+        d["without_project"]["expected_annual_damage_per_yr"]["predictive"]
+        > d["without_project"]["expected_annual_damage_per_yr"]["mode"]
+    )
     for name, f in d["alternatives"].items():
         b = f["expected_annual_benefit_per_yr"]
         assert b["ratio_predictive_to_mode"] == pytest.approx(b["predictive"] / b["mode"], rel=1e-12)
         assert b["ratio_predictive_to_mode"] > 1, name
         assert f["benefit_cost_ratio"]["predictive"] == pytest.approx(
-            b["predictive"] / f["costs"]["annualized_cost_per_yr"], rel=1e-12)
+            b["predictive"] / f["costs"]["annualized_cost_per_yr"], rel=1e-12
+        )
         assert f["response_draws_paired"], name  # the bundled alternatives keep the base's sampled parameters
     # the non-structural plan leaves the failure probability alone and reduces life loss (its design)
     ns = d["alternatives"]["warning and floodproofing"]
@@ -317,8 +397,7 @@ def test_paired_table_means_match_the_headline(bundled):
     p = pd.read_csv(bundled / "tables" / "paired_differences.csv")
     for name, g in p.groupby("alternative"):
         mean = float((g["weight"] * g["benefit_usd_per_yr"]).sum())
-        assert mean == pytest.approx(d["alternatives"][name]["expected_annual_benefit_per_yr"]["predictive"],
-                                     rel=1e-8)
+        assert mean == pytest.approx(d["alternatives"][name]["expected_annual_benefit_per_yr"]["predictive"], rel=1e-8)
         assert g["weight"].sum() == pytest.approx(1.0, rel=1e-8)
 
 
@@ -332,10 +411,18 @@ def test_compare_bad_input_exits_2_and_writes_nothing(scenario_factory, tmp_path
 
 
 def test_compare_end_to_end_small_scenario(scenario_factory, tmp_path, capsys):
-    sc = _scenario(scenario_factory, ECON + _alt("doubled damage", """
+    sc = _scenario(
+        scenario_factory,
+        ECON
+        + _alt(
+            "doubled damage",
+            """
     [alternatives.consequences]
     table = "consequences_x2.csv"
-    """), knowledge=False)
+    """,
+        ),
+        knowledge=False,
+    )
     out = tmp_path / "cmp"
     code, stdout, err = _run(["compare", str(sc.path), "--out", str(out)], capsys)
     assert code == 0, err
@@ -345,10 +432,18 @@ def test_compare_end_to_end_small_scenario(scenario_factory, tmp_path, capsys):
 
 
 def test_memo_section_is_escaped(scenario_factory):
-    sc = _scenario(scenario_factory, ECON + _alt("<b>dam & dike</b>", """
+    sc = _scenario(
+        scenario_factory,
+        ECON
+        + _alt(
+            "<b>dam & dike</b>",
+            """
     [alternatives.consequences]
     table = "consequences_x2.csv"
-    """), knowledge=False)
+    """,
+        ),
+        knowledge=False,
+    )
     c = al.compare(sc)
     sec = memo_section(c)
     assert set(sec) == {"title", "markdown", "html", "figures"}
@@ -426,8 +521,9 @@ def test_condition_year_risk_is_the_plain_per_year_value_and_ignores_the_discoun
             assert y["afp_per_yr"]["predictive"] == pytest.approx(float(w @ v["afp"]), rel=1e-14)
             assert y["all_lives_per_yr"]["predictive"] == pytest.approx(float(w @ v["all"]), rel=1e-14)
             b = c.risks[BASE_NAME][k].values
-            assert y["all_reduction_lives_per_yr"]["predictive"] == pytest.approx(float(w @ (b["all"] - v["all"])),
-                                                                               rel=1e-12)
+            assert y["all_reduction_lives_per_yr"]["predictive"] == pytest.approx(
+                float(w @ (b["all"] - v["all"])), rel=1e-12
+            )
     y0, y1 = c.figures["higher"]["condition_years"]
     assert y1["all_lives_per_yr"]["predictive"] == pytest.approx(2 * y0["all_lives_per_yr"]["predictive"], rel=1e-12)
     assert y1["afp_per_yr"]["predictive"] == pytest.approx(y0["afp_per_yr"]["predictive"], rel=1e-12)
@@ -443,8 +539,9 @@ def test_condition_year_risk_is_the_plain_per_year_value_and_ignores_the_discoun
     d0 = y0["all_reduction_lives_per_yr"]["predictive"]
     hand = d0 * (1 + sum(min(1.0, (t - 2030) / 10) for t in range(2030, 2050)) / 20)
     for r in runs.values():
-        assert r.figures["higher"]["all_reduction_lives_per_yr_undiscounted"]["predictive"] == pytest.approx(hand,
-                                                                                                           rel=1e-12)
+        assert r.figures["higher"]["all_reduction_lives_per_yr_undiscounted"]["predictive"] == pytest.approx(
+            hand, rel=1e-12
+        )
     f = c.figures["higher"]
     cost, ben = f["costs"]["annualized_cost_per_yr"], f["expected_annual_benefit_per_yr"]["predictive"]
     assert f["net_cost_per_statistical_life_saved"]["predictive"] == pytest.approx((cost - ben) / hand, rel=1e-10)
@@ -467,7 +564,8 @@ def test_without_a_future_year_the_condition_year_equals_the_run(scenario_factor
     assert b["all_lives_per_yr"]["predictive"] == pytest.approx(r.values_predictive["all"], rel=1e-3)
     # and, with no future year, the old annualized key is the same plain value
     assert c.figures["higher"]["afp_reduction_per_yr"]["predictive"] == pytest.approx(
-        y["afp_reduction_per_yr"]["predictive"], rel=1e-12)
+        y["afp_reduction_per_yr"]["predictive"], rel=1e-12
+    )
 
 
 def test_compare_prints_economic_only_and_the_reference_line_positions(scenario_factory, tmp_path, capsys):

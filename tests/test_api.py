@@ -16,8 +16,9 @@ def test_api_mirrors_cli(scenario_factory, tmp_path):
     # the per-draw table's weighted mean is the summary's predictive value (one result feeds every output)
     t = tables["per_draw"]
     s = result.summary()
-    assert (t["weight"] * t["afp_per_yr"]).sum() == \
-        __import__("pytest").approx(s["annual_failure_probability"]["predictive"], rel=1e-12)
+    assert (t["weight"] * t["afp_per_yr"]).sum() == __import__("pytest").approx(
+        s["annual_failure_probability"]["predictive"], rel=1e-12
+    )
     out = tmp_path / "res"
     riskcalc.run(path, out)
     on_disk = json.loads((out / "summary.json").read_text())

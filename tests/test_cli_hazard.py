@@ -28,8 +28,14 @@ def test_hazard_on_demo_writes_tables_and_figure(tmp_path, capsys):
     by_q = pd.read_csv(out / "hazard_by_discharge.csv")
     assert list(by_q.columns[:4]) == ["discharge_m3s", "aep_predictive", "aep_mode", "aep_median"]
     by_p = pd.read_csv(out / "hazard_by_aep.csv")
-    for c in ("aep", "discharge_predictive_m3s", "discharge_mode_m3s", "discharge_median_m3s",
-              "discharge_p05_m3s", "discharge_p95_m3s"):
+    for c in (
+        "aep",
+        "discharge_predictive_m3s",
+        "discharge_mode_m3s",
+        "discharge_median_m3s",
+        "discharge_p05_m3s",
+        "discharge_p95_m3s",
+    ):
         assert c in by_p.columns
     assert (out / "figures" / "hazard_ensemble.png").stat().st_size > 10_000
     assert (out / "figures" / "hazard_ensemble.svg").exists()
@@ -37,7 +43,9 @@ def test_hazard_on_demo_writes_tables_and_figure(tmp_path, capsys):
     # the predictive 1 % discharge exceeds the mode's for a posterior ensemble (common practice)
     row = by_p.iloc[(by_p["aep"] - 0.01).abs().argmin()]
     assert row["discharge_predictive_m3s"] > row["discharge_mode_m3s"]
-    assert (by_q["aep_p05"] <= by_q["aep_median"] + 1e-12).all() and (by_q["aep_median"] <= by_q["aep_p95"] + 1e-12).all()
+    assert (by_q["aep_p05"] <= by_q["aep_median"] + 1e-12).all() and (
+        by_q["aep_median"] <= by_q["aep_p95"] + 1e-12
+    ).all()
 
 
 def test_hazard_refuses_existing_output_without_overwrite(tmp_path, capsys):
@@ -67,8 +75,12 @@ def test_installed_command_help_and_error(tmp_path):
         pytest.skip("the riskcalc console script is not installed in this environment")
     r = subprocess.run([exe, "hazard", "--help"], capture_output=True, text=True)
     assert r.returncode == 0 and "Example" in r.stdout and "--family" in r.stdout
-    r = subprocess.run([exe, "hazard", "missing.csv", "--family", "lp3", "--out", str(tmp_path / "never")],
-                       capture_output=True, text=True, cwd=tmp_path)
+    r = subprocess.run(
+        [exe, "hazard", "missing.csv", "--family", "lp3", "--out", str(tmp_path / "never")],
+        capture_output=True,
+        text=True,
+        cwd=tmp_path,
+    )
     assert r.returncode == 2 and r.stderr.startswith("riskcalc: error: missing.csv: file not found")
     assert not (tmp_path / "never").exists()
     assert "Traceback" not in r.stderr

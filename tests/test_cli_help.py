@@ -25,8 +25,11 @@ def _written(name: str) -> str:
     """Every help text as written in the command's module: its docstring and each parameter's help."""
     func = getattr(getattr(cli, name), name)
     texts = [inspect.getdoc(func) or ""]
-    texts += [p.default.help for p in inspect.signature(func).parameters.values()
-              if isinstance(p.default, typer.models.ParameterInfo) and p.default.help]
+    texts += [
+        p.default.help
+        for p in inspect.signature(func).parameters.values()
+        if isinstance(p.default, typer.models.ParameterInfo) and p.default.help
+    ]
     return "\n".join(t.replace("\\[", "[") for t in texts)
 
 

@@ -67,12 +67,29 @@ DAMAGE_TRI = 'damage_multiplier = { distribution = "triangular", low = 0.8, mode
 LIFE_LOGN = 'life_loss_multiplier = { distribution = "lognormal", median = 1.0, beta = 0.3 }\n'
 
 
-def make(factory, folder, *, modes=None, conseq_extra="", rating_extra=None, sens="", points=200,
-         conseq=CONSEQ, ensemble=None, grid_extra=""):
+def make(
+    factory,
+    folder,
+    *,
+    modes=None,
+    conseq_extra="",
+    rating_extra=None,
+    sens="",
+    points=200,
+    conseq=CONSEQ,
+    ensemble=None,
+    grid_extra="",
+):
     """A small scenario: the conftest one with optional knowledge uncertainty and a [sensitivity] table."""
     extra = conseq_extra + f"\n[grid]\npoints = {points}\n{grid_extra}\n" + sens
-    path = factory(folder=folder, toml_extra=extra, modes=modes, rating=RATING if rating_extra is None else None,
-                   conseq=conseq, ensemble=ensemble)
+    path = factory(
+        folder=folder,
+        toml_extra=extra,
+        modes=modes,
+        rating=RATING if rating_extra is None else None,
+        conseq=conseq,
+        ensemble=ensemble,
+    )
     if rating_extra is not None:
         (path.parent / "rating.csv").write_text(RATING)
         path.write_text(path.read_text() + "\n[rating]\ntable = 'rating.csv'\n" + rating_extra + "\n")
@@ -95,8 +112,11 @@ def test_nominal_samples_equal_the_runs_per_realization_values(scenario_factory,
     kw = {"grid_extra": "rule = 'trapezoid'"} if case == "trapezoid" else {}
     if case == "natural":
         kw["rating_extra"] = "natural_sd = 0.3"
-    sc, res = run(make(scenario_factory, case, modes=TWO_MODES.format(shift=0.0).replace(
-        "spread_range = [0.8, 1.25]\n", ""), **kw))
+    sc, res = run(
+        make(
+            scenario_factory, case, modes=TWO_MODES.format(shift=0.0).replace("spread_range = [0.8, 1.25]\n", ""), **kw
+        )
+    )
     assert not sc.model.has_knowledge_uncertainty
     drv = driver_for_result(res)
     r = np.arange(sc.ensemble.size)
@@ -114,8 +134,14 @@ def test_sampled_response_equals_the_risk_integral_written_out(scenario_factory,
     # the EAD dm sum_p w[r, p] (D_nb + Pf_p (D_b - D_nb)) at h(x_p) + o, damage linear in stage: written out
     # here with scipy.special.ndtr and numpy.interp, independently of riskcalc's chain. rtol 1e-12.
     modes = ONE_MODE_SHIFT.format(shift=0.3).replace("shift_sd = 0.3\n", "shift_sd = 0.3\nspread_range = [0.8, 1.25]\n")
-    path = make(scenario_factory, f"direct_{rule}", modes=modes, conseq_extra=DAMAGE_TRI,
-                rating_extra="knowledge_sd = 0.2", grid_extra=f"rule = '{rule}'")
+    path = make(
+        scenario_factory,
+        f"direct_{rule}",
+        modes=modes,
+        conseq_extra=DAMAGE_TRI,
+        rating_extra="knowledge_sd = 0.2",
+        grid_extra=f"rule = '{rule}'",
+    )
     sc, res = run(path)
     drv = driver_for_result(res)
     rng = np.random.default_rng(11)
@@ -132,10 +158,12 @@ def test_sampled_response_equals_the_risk_integral_written_out(scenario_factory,
     cons = sc.model.consequences
     db, dn = np.interp(h, cons.stage, cons.damage_breach), np.interp(h, cons.stage, cons.damage_no_breach)
     np.testing.assert_allclose(got[AFP], np.einsum("bp,bp->b", w, pf), rtol=1e-12, atol=0)
-    np.testing.assert_allclose(got[EAD], params.damage_factor * np.einsum("bp,bp->b", w, dn + pf * (db - dn)),
-                               rtol=1e-12)
+    np.testing.assert_allclose(
+        got[EAD], params.damage_factor * np.einsum("bp,bp->b", w, dn + pf * (db - dn)), rtol=1e-12
+    )
     # the quantiles of the registry: normal(0, 0.2) at u, uniform(0.8, 1.25), triangular(0.8, 1.0, 1.3)
     from scipy import stats
+
     np.testing.assert_allclose(params.stage_offset, stats.norm(0, 0.2).ppf(U[:, 0]), rtol=1e-12)
     np.testing.assert_allclose(params.fm_spread[0], 0.8 + 0.45 * U[:, 2], rtol=1e-12)
     np.testing.assert_allclose(params.damage_factor, stats.triang(2 / 5, loc=0.8, scale=0.5).ppf(U[:, 3]), rtol=1e-12)
@@ -152,12 +180,24 @@ def test_point_masses_rearrange_the_trapezoid_sum():
 
 
 def test_factors_follow_the_scenario(scenario_factory):
-    sc, _ = run(make(scenario_factory, "fac", modes=TWO_MODES.format(shift=0.3), conseq_extra=DAMAGE_TRI,
-                     rating_extra="knowledge_sd = 0.1"))
+    sc, _ = run(
+        make(
+            scenario_factory,
+            "fac",
+            modes=TWO_MODES.format(shift=0.3),
+            conseq_extra=DAMAGE_TRI,
+            rating_extra="knowledge_sd = 0.1",
+        )
+    )
     names = [f.name for f in scenario_factors(sc.model)]
     # seepage has no shift_sd or spread_range; the life-loss multiplier is fixed: neither appears
-    assert names == ["hazard_realization", "rating_offset", "fragility_shift:overtopping",
-                     "fragility_spread:overtopping", "damage_multiplier"]
+    assert names == [
+        "hazard_realization",
+        "rating_offset",
+        "fragility_shift:overtopping",
+        "fragility_spread:overtopping",
+        "damage_multiplier",
+    ]
     f = {x.name: x for x in scenario_factors(sc.model)}
     # quantile functions: normal(0, 0.1) at u = 0.975 -> 0.1 * 1.959964 (standard normal table)
     assert f["rating_offset"].values(0.975) == pytest.approx(0.1959964, abs=1e-7)
@@ -184,8 +224,16 @@ def test_factor_that_does_not_enter_has_total_index_zero(scenario_factory):
     # no damage columns at all, yet an (active) damage multiplier: it cannot move AFP or ALL, so its
     # ST is 0 within its interval; EAD is identically 0, so its indices are undefined (NaN, with a note).
     conseq = "stage_m,life_loss_breach\n2.0,0\n4.0,1\n6.0,10\n9.0,50\n"
-    sc, res = run(make(scenario_factory, "inert", modes=ONE_MODE_SHIFT.format(shift=0.4), conseq=conseq,
-                       conseq_extra=DAMAGE_TRI, sens="[sensitivity]\nn = 256\nseed = 5\n"))
+    sc, res = run(
+        make(
+            scenario_factory,
+            "inert",
+            modes=ONE_MODE_SHIFT.format(shift=0.4),
+            conseq=conseq,
+            conseq_extra=DAMAGE_TRI,
+            sens="[sensitivity]\nn = 256\nseed = 5\n",
+        )
+    )
     rep = sensitivity_for_run(sc, res)
     for key in (AFP, ALL):
         r = rep.sobol[key]
@@ -200,8 +248,14 @@ def test_factor_that_does_not_enter_has_total_index_zero(scenario_factory):
 
 
 def test_results_repeat_with_the_seed_and_change_with_another(scenario_factory):
-    path = make(scenario_factory, "seed", modes=ONE_MODE_SHIFT.format(shift=0.3), conseq_extra=DAMAGE_TRI,
-                rating_extra="knowledge_sd = 0.1", sens="[sensitivity]\nn = 128\nseed = 9\n")
+    path = make(
+        scenario_factory,
+        "seed",
+        modes=ONE_MODE_SHIFT.format(shift=0.3),
+        conseq_extra=DAMAGE_TRI,
+        rating_extra="knowledge_sd = 0.1",
+        sens="[sensitivity]\nn = 128\nseed = 9\n",
+    )
     sc, res = run(path)
     a = sensitivity_for_run(sc, res, workers=3).frame()
     b = sensitivity_for_run(sc, res, workers=1).frame()  # also independent of the number of threads
@@ -212,23 +266,32 @@ def test_results_repeat_with_the_seed_and_change_with_another(scenario_factory):
 
 
 def test_target_width_doubles_n_and_wide_intervals_warn(scenario_factory):
-    path = make(scenario_factory, "conv", modes=ONE_MODE_SHIFT.format(shift=0.3),
-                rating_extra="knowledge_sd = 0.1")
+    path = make(scenario_factory, "conv", modes=ONE_MODE_SHIFT.format(shift=0.3), rating_extra="knowledge_sd = 0.1")
     sc, res = run(path)
     small = sensitivity_for_run(sc, res, read_settings({"n": 16, "seed": 2}, sc.path))
     assert any("exceed 0.1" in w for w in small.warnings)  # 16 base samples: intervals are wide
     rep = sensitivity_for_run(sc, res, read_settings({"n": 32, "seed": 2, "target_width": 0.08}, sc.path))
     ns = [n for n, _ in rep.history]
-    assert ns == [32 * 2 ** k for k in range(len(ns))] and len(ns) > 1
+    assert ns == [32 * 2**k for k in range(len(ns))] and len(ns) > 1
     assert rep.converged
     assert all(w < 0.08 for w in rep.history[-1][1].values() if w == w)
 
 
 def test_groups_report_one_index_per_group(scenario_factory):
-    sens = ('[sensitivity]\nn = 64\nseed = 4\n[sensitivity.groups]\n'
-            'response = ["rating_offset", "fragility_shift:breach"]\n')
-    sc, res = run(make(scenario_factory, "grp", modes=ONE_MODE_SHIFT.format(shift=0.3), conseq_extra=DAMAGE_TRI,
-                       rating_extra="knowledge_sd = 0.1", sens=sens))
+    sens = (
+        "[sensitivity]\nn = 64\nseed = 4\n[sensitivity.groups]\n"
+        'response = ["rating_offset", "fragility_shift:breach"]\n'
+    )
+    sc, res = run(
+        make(
+            scenario_factory,
+            "grp",
+            modes=ONE_MODE_SHIFT.format(shift=0.3),
+            conseq_extra=DAMAGE_TRI,
+            rating_extra="knowledge_sd = 0.1",
+            sens=sens,
+        )
+    )
     rep = sensitivity_for_run(sc, res)
     assert rep.sobol[AFP].factors == ("hazard_realization", "response", "damage_multiplier")
     assert set(rep.frame()["source"]) >= {"rating+fragility", "hazard", "consequences"}
@@ -240,8 +303,16 @@ def test_morris_ranks_the_dominant_factor_first(scenario_factory):
     rng = np.random.default_rng(1)
     ens = "mean,sd,skew\n" + "".join(f"{2.8 + 1e-4 * z:.6f},0.25,0.0\n" for z in rng.standard_normal(100))
     sens = "[sensitivity]\nn = 16\nseed = 6\nmorris = true\nmorris_trajectories = 20\n"
-    sc, res = run(make(scenario_factory, "morris", modes=ONE_MODE_SHIFT.format(shift=1.0), ensemble=ens,
-                       rating_extra="knowledge_sd = 0.01", sens=sens))
+    sc, res = run(
+        make(
+            scenario_factory,
+            "morris",
+            modes=ONE_MODE_SHIFT.format(shift=1.0),
+            ensemble=ens,
+            rating_extra="knowledge_sd = 0.01",
+            sens=sens,
+        )
+    )
     rep = sensitivity_for_run(sc, res)
     m = rep.morris[AFP]
     assert m.factors[int(np.argmax(m.mu_star))] == "fragility_shift:breach"
@@ -252,8 +323,15 @@ def test_morris_ranks_the_dominant_factor_first(scenario_factory):
 # the mean-mode gap by source
 # --------------------------------------------------------------------------
 def test_gap_table_against_the_run_and_the_multiplier_means(scenario_factory):
-    sc, res = run(make(scenario_factory, "gap", modes=ONE_MODE_SHIFT.format(shift=0.3),
-                       conseq_extra=DAMAGE_TRI + LIFE_LOGN, rating_extra="knowledge_sd = 0.1"))
+    sc, res = run(
+        make(
+            scenario_factory,
+            "gap",
+            modes=ONE_MODE_SHIFT.format(shift=0.3),
+            conseq_extra=DAMAGE_TRI + LIFE_LOGN,
+            rating_extra="knowledge_sd = 0.1",
+        )
+    )
     drv = driver_for_result(res)
     gap = gap_by_source(res, drv, seed=3, samples=4096)
     assert list(gap["source"].unique()) == ["hazard", "rating", "fragility", "consequences", "all"]
@@ -286,19 +364,22 @@ def test_gap_repeats_with_the_seed(scenario_factory):
 # --------------------------------------------------------------------------
 # the [sensitivity] table
 # --------------------------------------------------------------------------
-@pytest.mark.parametrize("table, key", [
-    ("bogus = 1", "sensitivity.bogus"),
-    ("n = 1000", "sensitivity.n"),
-    ("seed = 0", "sensitivity.seed"),
-    ("enabled = 'yes'", "sensitivity.enabled"),
-    ("target_width = 2.0", "sensitivity.target_width"),
-    ("morris_levels = 3", "sensitivity.morris_levels"),
-    ("n = 4096\nn_max = 1024", "sensitivity.n_max"),
-    ("exclude = ['hazard_realization']", "sensitivity.exclude"),
-    ("include = ['no_such_factor']", "sensitivity.include"),
-    ("[sensitivity.groups]\ng = ['no_such_factor']", "sensitivity.groups.g"),
-    ("[sensitivity.groups]\ng = []", "sensitivity.groups.g"),
-])
+@pytest.mark.parametrize(
+    "table, key",
+    [
+        ("bogus = 1", "sensitivity.bogus"),
+        ("n = 1000", "sensitivity.n"),
+        ("seed = 0", "sensitivity.seed"),
+        ("enabled = 'yes'", "sensitivity.enabled"),
+        ("target_width = 2.0", "sensitivity.target_width"),
+        ("morris_levels = 3", "sensitivity.morris_levels"),
+        ("n = 4096\nn_max = 1024", "sensitivity.n_max"),
+        ("exclude = ['hazard_realization']", "sensitivity.exclude"),
+        ("include = ['no_such_factor']", "sensitivity.include"),
+        ("[sensitivity.groups]\ng = ['no_such_factor']", "sensitivity.groups.g"),
+        ("[sensitivity.groups]\ng = []", "sensitivity.groups.g"),
+    ],
+)
 def test_bad_sensitivity_keys_name_the_key(scenario_factory, table, key):
     path = make(scenario_factory, "bad", sens="[sensitivity]\n" + table + "\n")
     with pytest.raises(InputError) as e:
@@ -324,14 +405,25 @@ def _main(argv):
 
 
 def test_cli_end_to_end(scenario_factory, tmp_path, capsys):
-    path = make(scenario_factory, "cli", modes=ONE_MODE_SHIFT.format(shift=0.3), conseq_extra=DAMAGE_TRI,
-                rating_extra="knowledge_sd = 0.1")
+    path = make(
+        scenario_factory,
+        "cli",
+        modes=ONE_MODE_SHIFT.format(shift=0.3),
+        conseq_extra=DAMAGE_TRI,
+        rating_extra="knowledge_sd = 0.1",
+    )
     out = tmp_path / "out"
     assert _main(["sensitivity", path, "--out", out, "--n", 32, "--seed", 7, "--morris"]) == 0
     printed = capsys.readouterr().out
     assert "fragility_shift:breach" in printed and "qualified, licensed engineers" in printed
-    for rel in ("sensitivity.json", "tables/sobol_indices.csv", "tables/mean_mode_gap_by_source.csv",
-                "tables/morris_screening.csv", "figures/sensitivity_indices.png", "figures/sensitivity_indices.svg"):
+    for rel in (
+        "sensitivity.json",
+        "tables/sobol_indices.csv",
+        "tables/mean_mode_gap_by_source.csv",
+        "tables/morris_screening.csv",
+        "figures/sensitivity_indices.png",
+        "figures/sensitivity_indices.svg",
+    ):
         assert (out / rel).is_file(), rel
     js = json.loads((out / "sensitivity.json").read_text())
     assert set(js["sobol"]) == set(OUTPUT_KEYS) and js["settings"]["seed"] == 7 and js["settings"]["n"] == 32
@@ -340,10 +432,13 @@ def test_cli_end_to_end(scenario_factory, tmp_path, capsys):
     assert _main(["sensitivity", path, "--out", out, "--n", 32]) == 2
 
 
-@pytest.mark.parametrize("args, needle", [
-    (["--n", 100], "--n"),
-    (["--seed", 0], "--seed"),
-])
+@pytest.mark.parametrize(
+    "args, needle",
+    [
+        (["--n", 100], "--n"),
+        (["--seed", 0], "--seed"),
+    ],
+)
 def test_cli_bad_options_exit_2(scenario_factory, tmp_path, capsys, args, needle):
     path = make(scenario_factory, "clibad")
     out = tmp_path / "never"
@@ -365,7 +460,8 @@ def test_cli_bad_scenario_exit_2(scenario_factory, tmp_path, capsys):
 
 def test_build_driver_without_a_scenario_matches_direct_masses(scenario_factory):
     sc, res = run(make(scenario_factory, "bd"))
-    drv = build_driver(sc.ensemble, sc.model, res.grid, rule="midpoint", log_spacing=True, workers=2,
-                       chunk_bytes=8 * 200 * 37)  # many chunks on two threads
+    drv = build_driver(
+        sc.ensemble, sc.model, res.grid, rule="midpoint", log_spacing=True, workers=2, chunk_bytes=8 * 200 * 37
+    )  # many chunks on two threads
     np.testing.assert_array_equal(drv.masses, cell_masses(sc.ensemble.aep(res.grid)))
     assert np.all(np.diff(drv.nominal[drv.order, 0]) >= 0)  # severity order by nominal AFP

@@ -30,8 +30,7 @@ def test_crf_7_percent_50_years():
 
 # Newnan, Eschenbach & Lavelle, Engineering Economic Analysis, compound interest tables, (A/P, i, n) and
 # (P/A, i, n), printed to 5 and 4 decimals [from memory] -> atol 5e-6 and 5e-5.
-TABLE_AP = [(0.10, 10, 0.16275), (0.05, 20, 0.08024), (0.08, 30, 0.08883), (0.06, 10, 0.13587),
-            (0.12, 5, 0.27741)]
+TABLE_AP = [(0.10, 10, 0.16275), (0.05, 20, 0.08024), (0.08, 30, 0.08883), (0.06, 10, 0.13587), (0.12, 5, 0.27741)]
 TABLE_PA = [(0.10, 10, 6.1446), (0.05, 20, 12.4622), (0.08, 30, 11.2578)]
 
 
@@ -45,8 +44,7 @@ def test_pwf_against_compound_interest_tables(rate, years, value):
     assert ec.present_worth_factor(rate, years) == pytest.approx(value, abs=5e-5)
 
 
-@pytest.mark.parametrize("rate, years", [(0.07, 50), (0.025, 100), (0.10, 1), (0.0275, 30), (-0.02, 20),
-                                         (0.5, 7)])
+@pytest.mark.parametrize("rate, years", [(0.07, 50), (0.025, 100), (0.10, 1), (0.0275, 30), (-0.02, 20), (0.5, 7)])
 def test_crf_is_inverse_of_exact_sum_of_discount_factors(rate, years):
     # Definition of (A/P): the uniform end-of-year amount whose present worth is 1, i.e. 1 / sum (1+i)^-t;
     # the sum is evaluated in exact rational arithmetic, so the tolerance is double rounding (rtol 1e-13).
@@ -107,12 +105,10 @@ def test_constant_ead_annualizes_to_itself():
     by_year = np.repeat(ead[:, None], 50, axis=1)
     np.testing.assert_allclose(ec.annualize_time_varying(by_year, 0.07, 50), ead, rtol=1e-13)
     breakpoints = np.column_stack([ead, ead])
-    np.testing.assert_allclose(ec.annualize_time_varying(breakpoints, 0.07, 50, years=[2030, 2080]), ead,
-                               rtol=1e-13)
+    np.testing.assert_allclose(ec.annualize_time_varying(breakpoints, 0.07, 50, years=[2030, 2080]), ead, rtol=1e-13)
     # one breakpoint: held constant over the whole period, at any rate including 0
     for rate in (0.0, 0.025, 0.12):
-        np.testing.assert_allclose(ec.annualize_time_varying(ead[:, None], rate, 30, years=[2035]), ead,
-                                   rtol=1e-13)
+        np.testing.assert_allclose(ec.annualize_time_varying(ead[:, None], rate, 30, years=[2035]), ead, rtol=1e-13)
 
 
 @pytest.mark.parametrize("rate, n", [(0.07, 50), (0.03, 30), (0.10, 10)])
@@ -169,14 +165,17 @@ def test_annualization_is_linear_over_realizations():
     assert np.all(each >= values.min(axis=1) - 1e-6) and np.all(each <= values.max(axis=1) + 1e-6)
 
 
-@pytest.mark.parametrize("kwargs", [
-    dict(values=np.ones((2, 49)), period_years=50),                        # by-year length mismatch
-    dict(values=[1.0, 2.0], period_years=50, years=[2050, 2030]),          # decreasing years
-    dict(values=[1.0, 2.0, 3.0], period_years=50, years=[2030, 2050]),     # breakpoints mismatch
-    dict(values=[1.0, 2.0], period_years=0, years=[2030, 2050]),           # bad period
-    dict(values=[1.0, 2.0], period_years=50.5, years=[2030, 2050]),        # not whole years
-    dict(values=np.ones(50), period_years=50, base_year=2030),             # base year without years
-])
+@pytest.mark.parametrize(
+    "kwargs",
+    [
+        dict(values=np.ones((2, 49)), period_years=50),  # by-year length mismatch
+        dict(values=[1.0, 2.0], period_years=50, years=[2050, 2030]),  # decreasing years
+        dict(values=[1.0, 2.0, 3.0], period_years=50, years=[2030, 2050]),  # breakpoints mismatch
+        dict(values=[1.0, 2.0], period_years=0, years=[2030, 2050]),  # bad period
+        dict(values=[1.0, 2.0], period_years=50.5, years=[2030, 2050]),  # not whole years
+        dict(values=np.ones(50), period_years=50, base_year=2030),  # base year without years
+    ],
+)
 def test_annualize_rejects_bad_input(kwargs):
     with pytest.raises(ValueError):
         ec.annualize_time_varying(rate=0.07, **kwargs)
@@ -196,7 +195,7 @@ def test_idc_uniform_against_geometric_sum():
     c, i = 2.0e7, 0.07
     g = (1 + i) ** (1 / 12)
     for m in (1, 6, 24, 60):
-        closed = c / m * (g ** 0.5 * (g ** m - 1) / (g - 1) - m)
+        closed = c / m * (g**0.5 * (g**m - 1) / (g - 1) - m)
         assert ec.interest_during_construction(c, i, m) == pytest.approx(closed, rel=1e-10)
     # one month: half a month of interest
     assert ec.interest_during_construction(c, i, 1) == pytest.approx(c * ((1 + i) ** (1 / 24) - 1), rel=1e-12)
@@ -237,7 +236,7 @@ def test_annualized_cost_against_closed_form():
     got = ec.annualized_cost(first, om, 0.07, 50)
     np.testing.assert_allclose(got, first * crf + om, rtol=1e-13)
     g = 1.07 ** (1 / 12)
-    idc = first / 36 * (g ** 0.5 * (g ** 36 - 1) / (g - 1) - 36)
+    idc = first / 36 * (g**0.5 * (g**36 - 1) / (g - 1) - 36)
     got = ec.annualized_cost(first, om, 0.07, 50, construction_months=36)
     np.testing.assert_allclose(got, (first + idc) * crf + om, rtol=1e-10)
     assert np.all(idc > 0)
@@ -264,8 +263,7 @@ def test_benefit_figures_are_paired_per_realization():
 
 def test_cost_per_statistical_life_saved():
     # (annual cost - annual economic benefit) / (ALL_without - ALL_with), by hand
-    res = ec.benefit_figures([1.0e6, 3.0e6], [4.0e5, 1.0e6], 2.0e6, all_without=[0.02, 0.02],
-                             all_with=[0.005, 0.01])
+    res = ec.benefit_figures([1.0e6, 3.0e6], [4.0e5, 1.0e6], 2.0e6, all_without=[0.02, 0.02], all_with=[0.005, 0.01])
     np.testing.assert_allclose(res.life_loss_reduction, [0.015, 0.01])
     np.testing.assert_allclose(res.cost_per_life_saved, [(2.0e6 - 6.0e5) / 0.015, (2.0e6 - 2.0e6) / 0.01])
     # benefits larger than the cost: lives saved at negative net cost
@@ -283,11 +281,11 @@ def test_zero_or_negative_life_loss_reduction_rule():
         warnings.simplefilter("error")
         res = ec.benefit_figures(without, with_, 5.0, all_without=all_w, all_with=all_p)
     cps = res.cost_per_life_saved
-    assert cps[0] == np.inf            # zero reduction, net cost 3 > 0
-    assert cps[1] == np.inf            # negative reduction, net cost 3 > 0
-    assert np.isnan(cps[2])            # zero reduction, benefits 15 exceed cost 5
+    assert cps[0] == np.inf  # zero reduction, net cost 3 > 0
+    assert cps[1] == np.inf  # negative reduction, net cost 3 > 0
+    assert np.isnan(cps[2])  # zero reduction, benefits 15 exceed cost 5
     assert cps[3] == pytest.approx((5.0 - 2.0) / 0.01)
-    assert np.isnan(cps[4])            # NaN input stays NaN
+    assert np.isnan(cps[4])  # NaN input stays NaN
 
 
 def test_benefit_figures_reject_bad_input():
@@ -320,8 +318,11 @@ def test_undiscounted_mean_by_hand():
     # a constant series is its own mean; the mean is the annualized value at a rate of 0
     assert ec.undiscounted_mean(np.array([[3.0, 3.0]]), 20, years=[2030, 2040])[0] == pytest.approx(3.0, rel=1e-15)
     v = np.array([[1.0, 4.0], [2.0, 0.5]])
-    np.testing.assert_allclose(ec.undiscounted_mean(v, 30, years=[2030, 2045]),
-                               ec.annualize_time_varying(v, 0.0, 30, years=[2030, 2045]), rtol=1e-13)
+    np.testing.assert_allclose(
+        ec.undiscounted_mean(v, 30, years=[2030, 2045]),
+        ec.annualize_time_varying(v, 0.0, 30, years=[2030, 2045]),
+        rtol=1e-13,
+    )
     # while a positive rate weights the early years more (growing series: below the plain mean)
     assert ec.annualize_time_varying(np.array([1e-3, 2e-3]), 0.07, 20, years=[2030, 2040]) < got
 

@@ -51,13 +51,16 @@ def run(factory, tmp_path, folder, **kw):
 
 
 def table_mode(p_lo, p_hi):
-    return """
+    return (
+        """
     [[failure_modes]]
     name = "breach"
       [[failure_modes.nodes]]
       kind = "table"
       table = "frag.csv"
-    """, f"stage_m,probability\n-100,{p_lo}\n100,{p_hi}\n"
+    """,
+        f"stage_m,probability\n-100,{p_lo}\n100,{p_hi}\n",
+    )
 
 
 @pytest.mark.parametrize("skew", [-3.0, 3.0])
@@ -85,7 +88,7 @@ def test_near_degenerate_ensemble(scenario_factory, tmp_path):
     rows = [(2.5, 1e-4, 0.0), (2.5, 1e-4, 0.1)]
     res = run(scenario_factory, tmp_path, "sd", ensemble=ensemble_csv(rows))
     finite_summary(res, tmp_path)
-    q = 10 ** 2.5
+    q = 10**2.5
     h = res.scenario.model.stage_at(np.array([q]))[0]
     pf = sc.ndtr((h - 5.0) / 0.5)  # conftest's normal breach node: median 5, spread 0.5
     mass = res.propagation.aep_predictive[0]  # P(Q > x_0), the mass the grid sees
@@ -158,14 +161,19 @@ def test_fragility_one_everywhere_gives_predictive_aep_of_grid_bottom(scenario_f
 def test_million_realizations_bounded_memory():
     # R = 10^6 Gumbel members (cheap), a 200-point grid: the dense (R, Q) masses alone would be
     # 1.6 GB; the chunked propagation must stay far below that (sanity bound, not a benchmark)
-    R, Q = 10 ** 6, 200
+    R, Q = 10**6, 200
     rng = np.random.default_rng(11)
-    ens = HazardEnsemble(family="gumbel", weights=np.full(R, 1.0 / R),
-                         params={"location": rng.normal(500, 20, R), "scale": rng.uniform(80, 120, R)})
+    ens = HazardEnsemble(
+        family="gumbel",
+        weights=np.full(R, 1.0 / R),
+        params={"location": rng.normal(500, 20, R), "scale": rng.uniform(80, 120, R)},
+    )
     grid = np.geomspace(200, 5000, Q)
     z = np.zeros(2)
-    model = ResponseChain(failure_modes=(FailureMode("m", (FragilityCurve("normal", median=1500.0, spread=200.0),)),),
-                      consequences=ConsequenceCurves(np.array([0.0, 1e4]), z, z, z, z))
+    model = ResponseChain(
+        failure_modes=(FailureMode("m", (FragilityCurve("normal", median=1500.0, spread=200.0),)),),
+        consequences=ConsequenceCurves(np.array([0.0, 1e4]), z, z, z, z),
+    )
     tracemalloc.start()
     try:
         prop = propagate(ens, model, grid, seed=1, workers=1, chunk_bytes=16 * 2**20)
@@ -202,8 +210,10 @@ def test_warns_on_extrapolation_beyond_rating_table(scenario_factory, tmp_path):
 def test_warns_on_truncation_above_grid(scenario_factory, tmp_path):
     # a grid that stops at AEP 1e-3 while the breach sits near the 1e-4 flood
     res = run(scenario_factory, tmp_path, "tr", toml_extra="[grid]\npoints = 300\naep_min = 1e-3\n")
-    share = res.truncation["tail_contribution"]["annual_failure_probability"] / \
-        res.headline["annual_failure_probability"]["predictive_nominal_response"]
+    share = (
+        res.truncation["tail_contribution"]["annual_failure_probability"]
+        / res.headline["annual_failure_probability"]["predictive_nominal_response"]
+    )
     assert share > 0.01
     assert any("comes from floods above the grid" in w and "lower grid.aep_min" in w for w in res.warnings)
 

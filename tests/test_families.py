@@ -51,7 +51,7 @@ def test_lp3_small_negative_skew_far_tail_against_edgeworth():
     # has an O(skew^3 z^9) error below 1e-6 relative at z <= 7. scipy.special.gammainc is 15 % off here.
     g, z = -3e-4, np.array([3.0, 4.5, 6.0, 7.0])
     phi = np.exp(-z * z / 2) / np.sqrt(2 * np.pi)
-    he2, he3, he5 = z * z - 1, z ** 3 - 3 * z, z ** 5 - 10 * z ** 3 + 15 * z
+    he2, he3, he5 = z * z - 1, z**3 - 3 * z, z**5 - 10 * z**3 + 15 * z
     edgeworth = stats.norm.sf(z) + phi * (g / 6 * he2 + 1.5 * g * g / 24 * he3 + g * g / 72 * he5)
     np.testing.assert_allclose(fam._pearson3_sf_std(z, g), edgeworth, rtol=1e-6)
 
@@ -107,9 +107,12 @@ finite = dict(allow_nan=False, allow_infinity=False)
 
 
 @settings(max_examples=60, deadline=None)
-@given(mean=st.floats(1.0, 4.0, **finite), sd=st.floats(0.05, 0.6, **finite),
-       skew=st.one_of(st.floats(-2.0, -1e-2, **finite), st.floats(1e-2, 2.5, **finite)),
-       p=st.floats(1e-8, 0.999, **finite))
+@given(
+    mean=st.floats(1.0, 4.0, **finite),
+    sd=st.floats(0.05, 0.6, **finite),
+    skew=st.one_of(st.floats(-2.0, -1e-2, **finite), st.floats(1e-2, 2.5, **finite)),
+    p=st.floats(1e-8, 0.999, **finite),
+)
 def test_lp3_matches_scipy_pearson3(mean, sd, skew, p):
     # scipy.stats.pearson3 of log10 Q with loc = mean, scale = sd (shared references section 3).
     # Skews are kept at |skew| >= 0.01, where scipy's incomplete gamma is accurate (see the tests above),
@@ -124,15 +127,19 @@ def test_lp3_matches_scipy_pearson3(mean, sd, skew, p):
 
 
 @settings(max_examples=60, deadline=None)
-@given(loc=st.floats(-50, 500, **finite), scale=st.floats(1, 200, **finite),
-       shape=st.one_of(st.floats(-0.45, -1e-6, **finite), st.floats(1e-6, 0.45, **finite), st.just(0.0)),
-       p=st.floats(1e-9, 0.999, **finite))
+@given(
+    loc=st.floats(-50, 500, **finite),
+    scale=st.floats(1, 200, **finite),
+    shape=st.one_of(st.floats(-0.45, -1e-6, **finite), st.floats(1e-6, 0.45, **finite), st.just(0.0)),
+    p=st.floats(1e-9, 0.999, **finite),
+)
 def test_gev_matches_scipy_genextreme(loc, scale, shape, p):
     # shapes of magnitude below 1e-6 (but not 0) are left out: scipy's genextreme is wrong at subnormal
     # shapes (isf(0.5, 5e-324) = 0, where the Gumbel limit gives -ln ln 2)
     x = stats.genextreme.isf(p, shape, loc=loc, scale=scale)
     assert fam.gev_quantile(np.array([p]), [[loc]], [[scale]], [[shape]])[0, 0] == pytest.approx(
-        x, rel=1e-9, abs=1e-9 * scale)
+        x, rel=1e-9, abs=1e-9 * scale
+    )
     got = fam.gev_aep(np.array([x]), [[loc]], [[scale]], [[shape]])[0, 0]
     assert got == pytest.approx(stats.genextreme.sf(x, shape, loc=loc, scale=scale), rel=1e-7)
     assert got == pytest.approx(p, rel=1e-6)
@@ -144,7 +151,8 @@ def test_gumbel_normal_lognormal_match_scipy(loc, scale, p):
     x = stats.gumbel_r.isf(p, loc=loc, scale=scale)
     assert fam.gumbel_quantile(np.array([p]), [[loc]], [[scale]])[0, 0] == pytest.approx(x, rel=1e-9, abs=1e-9)
     assert fam.gumbel_aep(np.array([x]), [[loc]], [[scale]])[0, 0] == pytest.approx(
-        stats.gumbel_r.sf(x, loc=loc, scale=scale), rel=1e-8)
+        stats.gumbel_r.sf(x, loc=loc, scale=scale), rel=1e-8
+    )
     x = stats.norm.isf(p, loc=loc, scale=scale)
     assert fam.normal_quantile(np.array([p]), [[loc]], [[scale]])[0, 0] == pytest.approx(x, rel=1e-9, abs=1e-9)
     assert fam.normal_aep(np.array([x]), [[loc]], [[scale]])[0, 0] == pytest.approx(p, rel=1e-8)
@@ -156,10 +164,12 @@ def test_gumbel_normal_lognormal_match_scipy(loc, scale, p):
 
 def test_gumbel_is_gev_with_zero_shape():
     x = np.linspace(0, 400, 11)
-    np.testing.assert_allclose(fam.gev_aep(x, [[100.0]], [[30.0]], [[0.0]]),
-                               fam.gumbel_aep(x, [[100.0]], [[30.0]]), rtol=1e-14)
-    np.testing.assert_allclose(fam.gev_aep(x, [[100.0]], [[30.0]], [[1e-7]]),
-                               fam.gumbel_aep(x, [[100.0]], [[30.0]]), rtol=1e-5)
+    np.testing.assert_allclose(
+        fam.gev_aep(x, [[100.0]], [[30.0]], [[0.0]]), fam.gumbel_aep(x, [[100.0]], [[30.0]]), rtol=1e-14
+    )
+    np.testing.assert_allclose(
+        fam.gev_aep(x, [[100.0]], [[30.0]], [[1e-7]]), fam.gumbel_aep(x, [[100.0]], [[30.0]]), rtol=1e-5
+    )
 
 
 def test_unknown_family():

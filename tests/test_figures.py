@@ -41,8 +41,12 @@ def test_every_figure_is_written_as_png_and_svg(bundled):
 def test_figures_are_deterministic(bundled, tmp_path):
     result, folder, _ = bundled
     # the two figures with seeded subsampling (members, f-N draws) drawn again give the same bytes
-    plots.plot_hazard(result.curves, result.scenario.ensemble, tmp_path / "hazard_ensemble",
-                      title=f"{result.scenario.title}: hazard ensemble ({result.scenario.ensemble.size} realizations)")
+    plots.plot_hazard(
+        result.curves,
+        result.scenario.ensemble,
+        tmp_path / "hazard_ensemble",
+        title=f"{result.scenario.title}: hazard ensemble ({result.scenario.ensemble.size} realizations)",
+    )
     plots.plot_fn(result, plots.scenario_guidelines(result.scenario), tmp_path / "fn_chart")
     for name in ("hazard_ensemble.png", "hazard_ensemble.svg", "fn_chart.png", "fn_chart.svg"):
         assert (tmp_path / name).read_bytes() == (folder / name).read_bytes(), name
@@ -69,8 +73,9 @@ def test_fn_chart_draws_only_chart_lines(bundled):
     dam = {ln.name for k in STRUCTURE_DEFAULTS["dam"] for ln in DEFAULT_GUIDELINES[k].lines}
     assert {ln.name for ln in gs.lines} == dam
     fig = plots.plot_fn(result, gs)
-    labels = " ".join(t.get_text().replace("\n", " ") for ax in fig.axes if ax.get_legend()
-                      for t in ax.get_legend().get_texts())
+    labels = " ".join(
+        t.get_text().replace("\n", " ") for ax in fig.axes if ax.get_legend() for t in ax.get_legend().get_texts()
+    )
     plt.close(fig)
     for ln in gs.lines:
         assert (ln.name in labels) == (ln in gs.chart_lines), ln.name
@@ -89,7 +94,8 @@ def test_identical_lines_are_drawn_once():
 
 
 def test_scenario_guidelines_section_is_used(scenario_factory):
-    path = scenario_factory(toml_extra="""
+    path = scenario_factory(
+        toml_extra="""
     [guidelines]
     name = "agency policy"
     source = "Agency policy 2020, s. 4"
@@ -98,16 +104,19 @@ def test_scenario_guidelines_section_is_used(scenario_factory):
     source = "Agency policy 2020, s. 4"
     anchor_n = 1
     anchor_f = 1e-4
-    """)
+    """
+    )
     gs = plots.scenario_guidelines(load_scenario(path))
     assert [ln.name for ln in gs.lines] == ["agency F-N limit"]
 
 
 def test_sensitivity_figure_and_dollar_signs_in_labels(tmp_path):
-    sens = {"expected_annual_damage": {"damage $ multiplier": {"S1": 0.5, "S1_conf": 0.05, "ST": 0.6,
-                                                                "ST_conf": 0.06},
-                                       "hazard realization": {"S1": 0.3, "S1_conf": None, "ST": 0.4,
-                                                              "ST_conf": 0.02}}}
+    sens = {
+        "expected_annual_damage": {
+            "damage $ multiplier": {"S1": 0.5, "S1_conf": 0.05, "ST": 0.6, "ST_conf": 0.06},
+            "hazard realization": {"S1": 0.3, "S1_conf": None, "ST": 0.4, "ST_conf": 0.02},
+        }
+    }
     paths = plots.plot_sensitivity(sens, tmp_path / "s")
     assert [p.suffix for p in paths] == [".png", ".svg"]
     assert "damage $ multiplier" in (tmp_path / "s.svg").read_text()

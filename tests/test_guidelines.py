@@ -109,17 +109,25 @@ def test_from_config_builds_custom_lines():
         "name": "Agency X",
         "source": "Agency X dam safety policy (2021), s. 3",
         "include": ["usbr_2011"],
-        "fn_lines": [{"name": "limit", "source": "Agency X (2021), fig. 2", "anchor_n": 10, "anchor_f": 1e-4,
-                      "slope": -1.5, "n_min": 1, "n_max": 1e4}],
+        "fn_lines": [
+            {
+                "name": "limit",
+                "source": "Agency X (2021), fig. 2",
+                "anchor_n": 10,
+                "anchor_f": 1e-4,
+                "slope": -1.5,
+                "n_min": 1,
+                "n_max": 1e4,
+            }
+        ],
         "life_loss_lines": [{"name": "ALL 0.005", "source": "Agency X (2021)", "value": 5e-3}],
-        "probability_lines": [{"name": "IR", "source": "Agency X (2021)", "value": 1e-5,
-                               "measure": "individual_risk"}],
+        "probability_lines": [{"name": "IR", "source": "Agency X (2021)", "value": 1e-5, "measure": "individual_risk"}],
     }
     gs = gl.from_config(cfg)
     assert gs.name == "Agency X" and len(gs.lines) == len(D["usbr_2011"].lines) + 3
     fn = [x for x in gs.lines if x.name == "limit"][0]
     assert fn.n_max == 1e4 and isinstance(fn.anchor_n, float)
-    assert gl.evaluate_line(fn, 1000.0) == pytest.approx(1e-4 * 100.0 ** -1.5, rel=1e-12)
+    assert gl.evaluate_line(fn, 1000.0) == pytest.approx(1e-4 * 100.0**-1.5, rel=1e-12)
     assert gl.from_config(None).lines == ()
     assert gl.from_config({}).lines == ()
 
@@ -127,24 +135,36 @@ def test_from_config_builds_custom_lines():
 GOOD_FN = {"name": "l", "source": "s", "anchor_n": 1, "anchor_f": 1e-3}
 
 
-@pytest.mark.parametrize("cfg, key, words", [
-    ({"fn_lines": [dict(GOOD_FN, anchor_f=-1e-3)]}, "guidelines.fn_lines[0].anchor_f", "positive"),
-    ({"fn_lines": [dict(GOOD_FN, anchor_f=2.0)]}, "guidelines.fn_lines[0].anchor_f", "annual probability"),
-    ({"fn_lines": [GOOD_FN, dict(GOOD_FN, anchor_n="ten")]}, "guidelines.fn_lines[1].anchor_n", "number"),
-    ({"fn_lines": [dict(GOOD_FN, slope=1.0)]}, "guidelines.fn_lines[0].slope", "<= 0"),
-    ({"fn_lines": [dict(GOOD_FN, n_min=100, n_max=10)]}, "guidelines.fn_lines[0].n_max", "n_min"),
-    ({"fn_lines": [{k: v for k, v in GOOD_FN.items() if k != "source"}]}, "guidelines.fn_lines[0].source",
-     "missing"),
-    ({"fn_lines": [dict(GOOD_FN, anchorf=1e-3)]}, "guidelines.fn_lines[0].anchorf", "unknown key"),
-    ({"fn_lines": GOOD_FN}, "guidelines.fn_lines", "list of tables"),
-    ({"life_loss_lines": [{"name": "a", "source": "s", "value": 0}]}, "guidelines.life_loss_lines[0].value",
-     "positive"),
-    ({"probability_lines": [{"name": "a", "source": "s", "value": 1e-4, "measure": "afp"}]},
-     "guidelines.probability_lines[0].measure", "individual_risk"),
-    ({"include": ["usace"]}, "guidelines.include[0]", "usace_2014"),
-    ({"lines": []}, "guidelines.lines", "unknown key"),
-    ({"fn_lines": [dict(GOOD_FN, name=" ")]}, "guidelines.fn_lines[0].name", "text"),
-])
+@pytest.mark.parametrize(
+    "cfg, key, words",
+    [
+        ({"fn_lines": [dict(GOOD_FN, anchor_f=-1e-3)]}, "guidelines.fn_lines[0].anchor_f", "positive"),
+        ({"fn_lines": [dict(GOOD_FN, anchor_f=2.0)]}, "guidelines.fn_lines[0].anchor_f", "annual probability"),
+        ({"fn_lines": [GOOD_FN, dict(GOOD_FN, anchor_n="ten")]}, "guidelines.fn_lines[1].anchor_n", "number"),
+        ({"fn_lines": [dict(GOOD_FN, slope=1.0)]}, "guidelines.fn_lines[0].slope", "<= 0"),
+        ({"fn_lines": [dict(GOOD_FN, n_min=100, n_max=10)]}, "guidelines.fn_lines[0].n_max", "n_min"),
+        (
+            {"fn_lines": [{k: v for k, v in GOOD_FN.items() if k != "source"}]},
+            "guidelines.fn_lines[0].source",
+            "missing",
+        ),
+        ({"fn_lines": [dict(GOOD_FN, anchorf=1e-3)]}, "guidelines.fn_lines[0].anchorf", "unknown key"),
+        ({"fn_lines": GOOD_FN}, "guidelines.fn_lines", "list of tables"),
+        (
+            {"life_loss_lines": [{"name": "a", "source": "s", "value": 0}]},
+            "guidelines.life_loss_lines[0].value",
+            "positive",
+        ),
+        (
+            {"probability_lines": [{"name": "a", "source": "s", "value": 1e-4, "measure": "afp"}]},
+            "guidelines.probability_lines[0].measure",
+            "individual_risk",
+        ),
+        ({"include": ["usace"]}, "guidelines.include[0]", "usace_2014"),
+        ({"lines": []}, "guidelines.lines", "unknown key"),
+        ({"fn_lines": [dict(GOOD_FN, name=" ")]}, "guidelines.fn_lines[0].name", "text"),
+    ],
+)
 def test_from_config_errors_name_the_key(cfg, key, words):
     with pytest.raises(ValueError) as err:
         gl.from_config(cfg)

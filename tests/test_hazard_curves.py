@@ -14,8 +14,13 @@ def lp3_ensemble(mean, sd, skew=None, weights=None, log_posterior=None):
     R = mean.size
     skew = np.zeros(R) if skew is None else np.asarray(skew, float)
     w = np.full(R, 1.0 / R) if weights is None else np.asarray(weights, float) / np.sum(weights)
-    return HazardEnsemble(family="lp3", weights=w, params={"mean": mean, "sd": np.asarray(sd, float), "skew": skew},
-                          log_posterior=log_posterior, labels=tuple(str(i) for i in range(R)))
+    return HazardEnsemble(
+        family="lp3",
+        weights=w,
+        params={"mean": mean, "sd": np.asarray(sd, float), "skew": skew},
+        log_posterior=log_posterior,
+        labels=tuple(str(i) for i in range(R)),
+    )
 
 
 def normal_posterior(n, ybar, s, R, rng):
@@ -60,7 +65,9 @@ def test_predictive_aep_with_importance_weights():
     sigma2 = stats.invgamma.rvs(a, scale=c * scale_post, size=R, random_state=rng)
     mu = rng.normal(ybar, np.sqrt(k * sigma2 / n))
     log_post = stats.invgamma.logpdf(sigma2, a, scale=scale_post) + stats.norm.logpdf(mu, ybar, np.sqrt(sigma2 / n))
-    log_prop = stats.invgamma.logpdf(sigma2, a, scale=c * scale_post) + stats.norm.logpdf(mu, ybar, np.sqrt(k * sigma2 / n))
+    log_prop = stats.invgamma.logpdf(sigma2, a, scale=c * scale_post) + stats.norm.logpdf(
+        mu, ybar, np.sqrt(k * sigma2 / n)
+    )
     w = np.exp(log_post - log_prop)
     w /= w.sum()
     ens = lp3_ensemble(mu, np.sqrt(sigma2), weights=w)
@@ -76,10 +83,18 @@ def test_predictive_aep_with_importance_weights():
 # Bulletin 17B (1982), Appendix 11, expected-probability adjustment: values computed from the formula
 # above (shared references section 1) at N = 10, 20, 30, 50.
 B17B_APPENDIX11 = {
-    (10, 0.1): 0.12639, (10, 0.01): 0.026866, (10, 0.001): 0.0081578,
-    (20, 0.1): 0.11312, (20, 0.01): 0.017508, (20, 0.001): 0.0035546,
-    (30, 0.1): 0.10873, (30, 0.01): 0.014791, (30, 0.001): 0.0024879,
-    (50, 0.1): 0.10523, (50, 0.01): 0.012769, (50, 0.001): 0.0017935,
+    (10, 0.1): 0.12639,
+    (10, 0.01): 0.026866,
+    (10, 0.001): 0.0081578,
+    (20, 0.1): 0.11312,
+    (20, 0.01): 0.017508,
+    (20, 0.001): 0.0035546,
+    (30, 0.1): 0.10873,
+    (30, 0.01): 0.014791,
+    (30, 0.001): 0.0024879,
+    (50, 0.1): 0.10523,
+    (50, 0.01): 0.012769,
+    (50, 0.001): 0.0017935,
 }
 
 
@@ -113,7 +128,7 @@ def test_bulletin17b_appendix11_approximation_at_one_percent(n):
     sigma = np.sqrt((n - 1) / stats.chi2.ppf(rng.permutation(u), n - 1))
     mu = stats.norm.ppf(rng.permutation(u)) * sigma / np.sqrt(n)
     got = predictive_aep(lp3_ensemble(mu, sigma), np.array([10 ** (-sc.ndtri(0.01))]))[0]
-    assert got == pytest.approx(0.01 * (1 + 26 / n ** 1.16), rel=0.06)
+    assert got == pytest.approx(0.01 * (1 + 26 / n**1.16), rel=0.06)
 
 
 def test_horizontal_and_vertical_bands_coincide_for_monotone_members():
@@ -140,7 +155,7 @@ def test_predictive_equals_weighted_mean_and_inverts():
     np.testing.assert_allclose(curves.aep_predictive, ens.weights @ members, rtol=1e-12)
     # predictive quantity at AEP 0.01 (probability-paper inversion) has predictive AEP 0.01
     x01 = invert_on_paper(curves.grid, curves.aep_predictive, [0.01])[0]
-    assert (ens.weights @ ens.aep(np.array([x01])))[0, ] == pytest.approx(0.01, rel=1e-4)
+    assert (ens.weights @ ens.aep(np.array([x01])))[0,] == pytest.approx(0.01, rel=1e-4)
     # the grid covers every member from AEP 0.999 to 1e-7
     assert members[:, 0].min() >= 0.999 - 1e-12 and members[:, -1].max() <= 1e-7 + 1e-15
     # median curve at each slice is the weighted median of the members

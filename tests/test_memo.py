@@ -34,7 +34,7 @@ needs_chromium = pytest.mark.skipif(CHROMIUM is None, reason="Chromium is not in
 def run(tmp_path_factory):
     """A small scenario, titled with HTML markup, run once: (result, output directory)."""
     base = tmp_path_factory.mktemp("memo")
-    sc = write_scenario(base / "sc", toml_extra='[grid]\npoints = 400\n')
+    sc = write_scenario(base / "sc", toml_extra="[grid]\npoints = 400\n")
     text = sc.read_text().replace('title = "test scenario"', f"title = {json.dumps(NASTY)}")
     sc.write_text(text)
     out = base / "out"
@@ -45,8 +45,12 @@ def run(tmp_path_factory):
 def _chromium(*args, timeout=120):
     profile = Path(__import__("tempfile").mkdtemp(prefix="rc-test-chromium-"))
     try:
-        return subprocess.run([CHROMIUM, *workflows.CHROMIUM_FLAGS, f"--user-data-dir={profile}", *args],
-                              capture_output=True, text=True, timeout=timeout)
+        return subprocess.run(
+            [CHROMIUM, *workflows.CHROMIUM_FLAGS, f"--user-data-dir={profile}", *args],
+            capture_output=True,
+            text=True,
+            timeout=timeout,
+        )
     finally:
         shutil.rmtree(profile, ignore_errors=True)
 
@@ -91,8 +95,14 @@ def _check_headline(rows, summary):
     assert len(rows) == len(HEADLINE_KEYS)
     for row, key in zip(rows, HEADLINE_KEYS):
         h, kind = summary[key], output_label(key).kind
-        want = [h["predictive"], h["mode"], h["median_curve"], h["ensemble"]["p05"], h["ensemble"]["p50"],
-                h["ensemble"]["p95"]]
+        want = [
+            h["predictive"],
+            h["mode"],
+            h["median_curve"],
+            h["ensemble"]["p05"],
+            h["ensemble"]["p50"],
+            h["ensemble"]["p95"],
+        ]
         for cell, v in zip(row[1:7], want):
             got = _number(cell)
             if kind == "money" and abs(v) >= 100:
@@ -110,8 +120,11 @@ def test_markdown_and_html_hold_the_headline_numbers_of_summary_json(run):
     summary = json.loads((out / "summary.json").read_text())
     md = (out / "memo.md").read_text()
     labels = [output_label(k).text(summary["units"]["currency"], unit=False) for k in HEADLINE_KEYS]
-    md_rows = [[c.strip().replace("\\", "") for c in line.strip().strip("|").split("|")]
-               for line in md.splitlines() if any(line.startswith(f"| {lab}") for lab in labels)]
+    md_rows = [
+        [c.strip().replace("\\", "") for c in line.strip().strip("|").split("|")]
+        for line in md.splitlines()
+        if any(line.startswith(f"| {lab}") for lab in labels)
+    ]
     _check_headline(md_rows, summary)
     parser = _Tables()
     parser.feed((out / "memo.html").read_text())
@@ -160,8 +173,15 @@ def test_html_is_self_contained_and_prints_by_section(run):
 def test_memo_sections_cautions_provenance_and_references(run):
     result, out = run
     md = (out / "memo.md").read_text()
-    for title in ("Headline results", "Figures", "Tolerable-risk comparison", "Warnings", "Provenance",
-                  "Cautions and limitations", "Methods appendix"):
+    for title in (
+        "Headline results",
+        "Figures",
+        "Tolerable-risk comparison",
+        "Warnings",
+        "Provenance",
+        "Cautions and limitations",
+        "Methods appendix",
+    ):
         assert f". {title}" in md
     for p in result.scenario.files:  # SHA-256 of every input, as hashlib computes it
         import hashlib
@@ -169,8 +189,7 @@ def test_memo_sections_cautions_provenance_and_references(run):
         assert hashlib.sha256(p.read_bytes()).hexdigest() in md
     assert f"| seed | {result.scenario.seed} |" in md
     assert "never replace" in md and "governing agency's current policy" in md
-    for ref in ("Stedinger", "Beard", "Bulletin 17B", "Bulletin 17C", "Ang, A.H.-S.", "Cornell", "Graham",
-                "Temme"):
+    for ref in ("Stedinger", "Beard", "Bulletin 17B", "Bulletin 17C", "Ang, A.H.-S.", "Cornell", "Graham", "Temme"):
         assert ref in md
     assert "Saltelli" not in md  # cited only when sensitivity results are shown
 
@@ -229,14 +248,23 @@ def test_pdf_without_chromium_exits_2(run, tmp_path, monkeypatch, capsys):
 
 def test_sensitivity_and_extra_sections_are_rendered(run, tmp_path):
     result, _ = run
-    sens = {"annual_failure_probability": {"hazard realization": {"S1": 0.61, "S1_conf": 0.04, "ST": 0.72,
-                                                                  "ST_conf": 0.05},
-                                           "fragility median": {"S1": 0.2, "S1_conf": 0.03, "ST": 0.27,
-                                                                "ST_conf": 0.04}}}
-    extra = [Section("Alternatives <b>", "alternatives", (
-        Block("p", "Raise the levee: benefit <em>1.5</em> per year."),
-        Block("table", header=("alternative", "benefit"), rows=(("raise | levee", "1,500"),)),
-        Block("figure", text="Benefit of each alternative.", figure="benefit_distributions")))]
+    sens = {
+        "annual_failure_probability": {
+            "hazard realization": {"S1": 0.61, "S1_conf": 0.04, "ST": 0.72, "ST_conf": 0.05},
+            "fragility median": {"S1": 0.2, "S1_conf": 0.03, "ST": 0.27, "ST_conf": 0.04},
+        }
+    }
+    extra = [
+        Section(
+            "Alternatives <b>",
+            "alternatives",
+            (
+                Block("p", "Raise the levee: benefit <em>1.5</em> per year."),
+                Block("table", header=("alternative", "benefit"), rows=(("raise | levee", "1,500"),)),
+                Block("figure", text="Benefit of each alternative.", figure="benefit_distributions"),
+            ),
+        )
+    ]
     r2 = dataclasses.replace(result, sensitivity=sens, extras={"memo_sections": extra})
     out = tmp_path / "out"
     shutil.copytree(run[1], out)  # the run's files; then what a run with these results adds
@@ -300,8 +328,9 @@ def test_memo_renders_in_headless_chromium(run, tmp_path):
     assert check["errors"] == []
 
     shot = tmp_path / "shot.png"
-    res = _chromium("--window-size=1000,2400", "--hide-scrollbars", f"--screenshot={shot}",
-                    (out / "memo.html").as_uri())
+    res = _chromium(
+        "--window-size=1000,2400", "--hide-scrollbars", f"--screenshot={shot}", (out / "memo.html").as_uri()
+    )
     assert shot.exists(), res.stderr[-500:]
     import matplotlib.pyplot as plt
 
@@ -349,7 +378,9 @@ def test_memo_names_the_mean_parameter_fallback_and_states_the_confidence(run):
 def test_a_point_outside_a_line_range_is_not_applicable_in_the_memo(tmp_path):
     # a life-loss line drawn only for N >= 10000 lives: the f-N point of this scenario (N = ALL_inc / AFP, a few
     # lives) lies left of it, so the line does not apply: "not applicable", not "below"
-    sc = write_scenario(tmp_path / "sc", toml_extra=textwrap.dedent("""
+    sc = write_scenario(
+        tmp_path / "sc",
+        toml_extra=textwrap.dedent("""
     [grid]
     points = 400
     [guidelines]
@@ -358,7 +389,8 @@ def test_a_point_outside_a_line_range_is_not_applicable_in_the_memo(tmp_path):
     source = "test source"
     value = 1e-3
     n_min = 10000
-    """))
+    """),
+    )
     out = tmp_path / "out"
     result = run_scenario(sc, out)
     n = result.values_predictive["all_incremental"] / result.values_predictive["afp"]

@@ -19,8 +19,10 @@ from riskcalc.outputs.labels import CAUTION
 from conftest import write_scenario
 
 # the conftest consequence table with every damage doubled: an alternative that changes the consequences
-CONSEQ_X2 = ("stage_m,damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
-             "2.0,0,0,0\n4.0,2.0e6,0,1\n6.0,1.0e7,2.0e6,10\n9.0,4.0e7,1.0e7,50\n")
+CONSEQ_X2 = (
+    "stage_m,damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
+    "2.0,0,0,0\n4.0,2.0e6,0,1\n6.0,1.0e7,2.0e6,10\n9.0,4.0e7,1.0e7,50\n"
+)
 
 EXTRA = textwrap.dedent("""
 [grid]

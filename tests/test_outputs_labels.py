@@ -12,34 +12,37 @@ from riskcalc.outputs.memo import Block, Section, blocks_html, blocks_markdown, 
 
 
 # Expected strings are written out by hand from each format's rule (its docstring), not computed.
-@pytest.mark.parametrize("fmt, value, expected", [
-    (lb.fmt_num, 0.0087349, "0.00873"),            # three significant figures
-    (lb.fmt_num, 1.1234e-05, "1.12e-05"),
-    (lb.fmt_num, 12.345, "12.3"),
-    (lb.fmt_num, None, "n/a"),
-    (lb.fmt_num, math.nan, "n/a"),
-    (lb.fmt_num, math.inf, "∞"),
-    (lb.fmt_money, 1227087.4, "1,227,087"),        # whole units, thousands separators
-    (lb.fmt_money, -20661875.2, "-20,661,875"),
-    (lb.fmt_money, 12.34, "12.3"),                 # below 100: three significant figures
-    (lb.fmt_money, -math.inf, "−∞"),
-    (lb.fmt_ratio, 11.614, "11.61"),               # two decimals
-    (lb.fmt_ratio, 0.9, "0.90"),
-    (lb.fmt_ratio, None, "n/a"),
-    (lb.fmt_return_period, 0.0155, "65"),          # 1 / 0.0155 = 64.5: whole years
-    (lb.fmt_return_period, 0.01, "100"),
-    (lb.fmt_return_period, 1.23e-05, "81,300"),    # 81,301: three significant figures above 1,000
-    (lb.fmt_return_period, 0.3, "3.3"),            # 3.33: two significant figures below 10
-    (lb.fmt_return_period, 0.0, "n/a"),
-    (lb.fmt_aep, 0.01, "1 %"),
-    (lb.fmt_aep, 0.002, "0.2 %"),
-    (lb.fmt_aep, 1e-05, "1e-05"),
-    (lb.fmt_aep_axis, 0.01, "0.01"),
-    (lb.fmt_aep_axis, 1e-04, "1e-4"),
-    (lb.fmt_aep_axis, 2e-05, "2.0e-05"),
-    (lb.fmt_quantity, 12345.6, "12,346"),          # discharge: like money
-    (lb.fmt_quantity, 98.74, "98.7"),
-])
+@pytest.mark.parametrize(
+    "fmt, value, expected",
+    [
+        (lb.fmt_num, 0.0087349, "0.00873"),  # three significant figures
+        (lb.fmt_num, 1.1234e-05, "1.12e-05"),
+        (lb.fmt_num, 12.345, "12.3"),
+        (lb.fmt_num, None, "n/a"),
+        (lb.fmt_num, math.nan, "n/a"),
+        (lb.fmt_num, math.inf, "∞"),
+        (lb.fmt_money, 1227087.4, "1,227,087"),  # whole units, thousands separators
+        (lb.fmt_money, -20661875.2, "-20,661,875"),
+        (lb.fmt_money, 12.34, "12.3"),  # below 100: three significant figures
+        (lb.fmt_money, -math.inf, "−∞"),
+        (lb.fmt_ratio, 11.614, "11.61"),  # two decimals
+        (lb.fmt_ratio, 0.9, "0.90"),
+        (lb.fmt_ratio, None, "n/a"),
+        (lb.fmt_return_period, 0.0155, "65"),  # 1 / 0.0155 = 64.5: whole years
+        (lb.fmt_return_period, 0.01, "100"),
+        (lb.fmt_return_period, 1.23e-05, "81,300"),  # 81,301: three significant figures above 1,000
+        (lb.fmt_return_period, 0.3, "3.3"),  # 3.33: two significant figures below 10
+        (lb.fmt_return_period, 0.0, "n/a"),
+        (lb.fmt_aep, 0.01, "1 %"),
+        (lb.fmt_aep, 0.002, "0.2 %"),
+        (lb.fmt_aep, 1e-05, "1e-05"),
+        (lb.fmt_aep_axis, 0.01, "0.01"),
+        (lb.fmt_aep_axis, 1e-04, "1e-4"),
+        (lb.fmt_aep_axis, 2e-05, "2.0e-05"),
+        (lb.fmt_quantity, 12345.6, "12,346"),  # discharge: like money
+        (lb.fmt_quantity, 98.74, "98.7"),
+    ],
+)
 def test_number_formats(fmt, value, expected):
     assert fmt(value) == expected
 
@@ -84,15 +87,22 @@ def test_caution_says_what_the_project_rules_require():
     assert "never replace" in lb.CAUTION and "defaults from published guidance" in lb.CAUTION
     assert len(lb.CAUTION_SHORT) < len(lb.CAUTION)
     # plain text: Markdown and HTML renderers leave it as it is, so it can appear verbatim everywhere
-    assert not set(lb.CAUTION) & set("\\`*_[]<>|#&\"")
+    assert not set(lb.CAUTION) & set('\\`*_[]<>|#&"')
     assert lb.caution_line() == "Caution: " + lb.CAUTION
 
 
 def test_section_survives_json_and_renders_escaped():
-    sec = Section("Alt <1>", "alt", (
-        Block("p", "a *b* <i>"), Block("table", header=("x", "y [USD]"), rows=(("a|b", "1,234"),), css="t"),
-        Block("list", items=("one", "two")), Block("figure", text="cap", figure="fig_a", number=3, image="AAAA"),
-        Block("caution", lb.CAUTION)))
+    sec = Section(
+        "Alt <1>",
+        "alt",
+        (
+            Block("p", "a *b* <i>"),
+            Block("table", header=("x", "y [USD]"), rows=(("a|b", "1,234"),), css="t"),
+            Block("list", items=("one", "two")),
+            Block("figure", text="cap", figure="fig_a", number=3, image="AAAA"),
+            Block("caution", lb.CAUTION),
+        ),
+    )
     back = section_from_dict(section_to_dict(sec))
     assert back.title == sec.title and back.anchor == "alt" and back.figures == ["fig_a"]
     assert back.blocks[:3] == sec.blocks[:3] and back.blocks[4] == sec.blocks[4]

@@ -11,9 +11,16 @@ from riskcalc.workflows import collect_scenarios, run_portfolio
 
 @pytest.fixture
 def three_scenarios(tmp_path, scenario_factory):
-    paths = [scenario_factory(folder=f"s{i}", toml_extra=("[uncertainty]\ndraws_per_realization = 2\n"
-                                            "[grid]\npoints = 300\n[outputs]\nfigures = false\nmemo = false\n"))
-             for i in range(3)]
+    paths = [
+        scenario_factory(
+            folder=f"s{i}",
+            toml_extra=(
+                "[uncertainty]\ndraws_per_realization = 2\n"
+                "[grid]\npoints = 300\n[outputs]\nfigures = false\nmemo = false\n"
+            ),
+        )
+        for i in range(3)
+    ]
     for i, p in enumerate(paths):
         text = p.read_text().replace("seed = 42", f"seed = {100 + i}")
         # knowledge uncertainty, so that random streams matter
@@ -31,7 +38,9 @@ def test_serial_and_local_cluster_are_bit_identical(tmp_path, three_scenarios):
     pytest.importorskip("dask.distributed")
     serial = run_portfolio(three_scenarios, tmp_path / "serial")
     # generous start-up and connect limits: worker processes start slowly on a loaded runner
-    with dask.config.set({"distributed.comm.timeouts.connect": "120s", "distributed.deploy.lost-worker-timeout": "120s"}):
+    with dask.config.set(
+        {"distributed.comm.timeouts.connect": "120s", "distributed.deploy.lost-worker-timeout": "120s"}
+    ):
         dist = run_portfolio(three_scenarios, tmp_path / "dist", workers=2)
     assert (serial["status"] == "ok").all() and (dist["status"] == "ok").all()
     cols = [c for c in serial.columns if c not in ("output",)]
@@ -41,8 +50,9 @@ def test_serial_and_local_cluster_are_bit_identical(tmp_path, three_scenarios):
     for n in names:
         for key in ("annual_failure_probability", "expected_annual_damage", "annualized_life_loss"):
             assert a[n][key] == b[n][key]
-        assert (tmp_path / "serial" / n / "tables" / "per_draw.csv").read_bytes() == \
-            (tmp_path / "dist" / n / "tables" / "per_draw.csv").read_bytes()
+        assert (tmp_path / "serial" / n / "tables" / "per_draw.csv").read_bytes() == (
+            tmp_path / "dist" / n / "tables" / "per_draw.csv"
+        ).read_bytes()
 
 
 def test_failing_scenario_is_reported_and_others_run(tmp_path, three_scenarios):

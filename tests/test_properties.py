@@ -41,7 +41,7 @@ AFP, EAD, ALL = 0, 2, 4  # columns of riskcalc.response.chain.OUTPUTS
 
 # 1 ft = 0.3048 m exactly (international foot, 1959; NIST SP 811, appendix B)
 FT_PER_M = 1 / 0.3048
-CFS_PER_M3S = FT_PER_M ** 3
+CFS_PER_M3S = FT_PER_M**3
 
 
 @st.composite
@@ -57,8 +57,13 @@ def cases(draw):
     natural = draw(st.sampled_from([0.0, 0.3]))
     dmg = np.sort(np.array(draw(st.lists(st.floats(0.0, 1e7), min_size=4, max_size=4))))
     life = np.sort(np.array(draw(st.lists(st.floats(0.0, 100.0), min_size=4, max_size=4))))
-    ens = HazardEnsemble(family="lp3", weights=normalize_weights(w),
-                         params={"mean": mean, "sd": sd, "skew": skew}, quantity="discharge", unit="m3s")
+    ens = HazardEnsemble(
+        family="lp3",
+        weights=normalize_weights(w),
+        params={"mean": mean, "sd": sd, "skew": skew},
+        quantity="discharge",
+        unit="m3s",
+    )
     return ens, dict(median=median, spread=spread, natural=natural, dmg=dmg, life=life)
 
 
@@ -69,8 +74,13 @@ def model_of(p, median=None):
     frag = FragilityCurve("normal", median=p["median"] if median is None else median, spread=p["spread"])
     stage = np.array([2.0, 4.0, 6.0, 9.0])
     cons = ConsequenceCurves(stage, p["dmg"], 0.1 * p["dmg"], p["life"], np.zeros(4))
-    return ResponseChain(failure_modes=(FailureMode("breach", (frag,)),), consequences=cons, rating=RATING,
-                     natural=StageSpread(p["natural"]) if p["natural"] > 0 else None, hermite_nodes=12)
+    return ResponseChain(
+        failure_modes=(FailureMode("breach", (frag,)),),
+        consequences=cons,
+        rating=RATING,
+        natural=StageSpread(p["natural"]) if p["natural"] > 0 else None,
+        hermite_nodes=12,
+    )
 
 
 def grid_of(ens, n=300):
@@ -143,8 +153,12 @@ def test_duplicating_every_realization_changes_nothing(case):
     grid = grid_of(ens)
     base = run(ens, model, grid)
     idx = np.repeat(np.arange(ens.size), 2)
-    dup = HazardEnsemble(family="lp3", weights=normalize_weights(np.repeat(ens.weights, 2)),
-                         params={k: v[idx] for k, v in ens.params.items()}, quantity="discharge")
+    dup = HazardEnsemble(
+        family="lp3",
+        weights=normalize_weights(np.repeat(ens.weights, 2)),
+        params={k: v[idx] for k, v in ens.params.items()},
+        quantity="discharge",
+    )
     np.testing.assert_array_equal(grid_of(dup), grid)
     prop = run(dup, model, grid)
     close(predictive(prop), predictive(base))
@@ -173,15 +187,18 @@ def write_units_scenario(folder: Path, metric: bool, ens_rows, median, spread, n
     folder.mkdir(parents=True)
     f = lambda v: repr(float(v))  # noqa: E731 - shortest round-trip text of a float
     # LP3 of log10 Q: multiplying Q by fq adds log10(fq) to the mean, sd and skew unchanged
-    (folder / "ensemble.csv").write_text("mean,sd,skew\n" + "".join(
-        f"{f(m + np.log10(fq))},{f(s)},{f(g)}\n" for m, s, g in ens_rows))
+    (folder / "ensemble.csv").write_text(
+        "mean,sd,skew\n" + "".join(f"{f(m + np.log10(fq))},{f(s)},{f(g)}\n" for m, s, g in ens_rows)
+    )
     rating = [(10, 1.0), (100, 2.0), (1000, 4.0), (10000, 7.0), (100000, 11.0)]
-    (folder / "rating.csv").write_text(f"discharge_{qu},stage_{hu}\n" + "".join(
-        f"{f(q * fq)},{f(h * fh)}\n" for q, h in rating))
+    (folder / "rating.csv").write_text(
+        f"discharge_{qu},stage_{hu}\n" + "".join(f"{f(q * fq)},{f(h * fh)}\n" for q, h in rating)
+    )
     cons = [(2.0, 0, 0, 0), (4.0, 1e6, 0, 1), (6.0, 5e6, 1e6, 10), (9.0, 2e7, 5e6, 50)]
     (folder / "consequences.csv").write_text(
-        f"stage_{hu},damage_breach_usd,damage_no_breach_usd,life_loss_breach\n" + "".join(
-            f"{f(h * fh)},{a},{b},{c}\n" for h, a, b, c in cons))
+        f"stage_{hu},damage_breach_usd,damage_no_breach_usd,life_loss_breach\n"
+        + "".join(f"{f(h * fh)},{a},{b},{c}\n" for h, a, b, c in cons)
+    )
     text = f"""
     title = "units check (invented)"
     seed = 7
@@ -213,8 +230,13 @@ def write_units_scenario(folder: Path, metric: bool, ens_rows, median, spread, n
 
 
 @settings(max_examples=6, deadline=None)
-@given(st.lists(st.tuples(st.floats(2.2, 2.8), st.floats(0.1, 0.35), st.floats(-0.8, 0.8)), min_size=2, max_size=8),
-       st.floats(3.0, 8.0), st.floats(0.1, 1.5), st.sampled_from([0.0, 0.25]), st.sampled_from([0.0, 0.2]))
+@given(
+    st.lists(st.tuples(st.floats(2.2, 2.8), st.floats(0.1, 0.35), st.floats(-0.8, 0.8)), min_size=2, max_size=8),
+    st.floats(3.0, 8.0),
+    st.floats(0.1, 1.5),
+    st.sampled_from([0.0, 0.25]),
+    st.sampled_from([0.0, 0.2]),
+)
 def test_unit_conversion_changes_only_labels(rows, median, spread, natural, knowledge):
     with tempfile.TemporaryDirectory() as d:
         res = {}
@@ -226,6 +248,7 @@ def test_unit_conversion_changes_only_labels(rows, median, spread, natural, know
         for key in ("annual_failure_probability", "expected_annual_damage", "annualized_life_loss"):
             for curve in ("predictive", "mode", "median_curve"):
                 np.testing.assert_allclose(b.headline[key][curve], a.headline[key][curve], rtol=1e-9, atol=1e-300)
-            np.testing.assert_allclose(b.headline[key]["mc_standard_error"], a.headline[key]["mc_standard_error"],
-                                       rtol=1e-9, atol=1e-300)
+            np.testing.assert_allclose(
+                b.headline[key]["mc_standard_error"], a.headline[key]["mc_standard_error"], rtol=1e-9, atol=1e-300
+            )
         assert a.scenario.units["stage"] == "m" and b.scenario.units["stage"] == "ft"

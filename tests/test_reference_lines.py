@@ -25,8 +25,15 @@ from riskcalc.risk.assess import assess
 ROOT = Path(__file__).resolve().parents[1]
 UNVERIFIED = "[from memory; check the primary document]"
 
-USACE_FN = gl.FNLimitLine("F-N limit", "USACE ER 1110-2-1156 (2014) [from memory]", anchor_n=1.0, anchor_f=1e-3,
-                          slope=-1.0, n_min=1.0, n_max=1000.0)
+USACE_FN = gl.FNLimitLine(
+    "F-N limit",
+    "USACE ER 1110-2-1156 (2014) [from memory]",
+    anchor_n=1.0,
+    anchor_f=1e-3,
+    slope=-1.0,
+    n_min=1.0,
+    n_max=1000.0,
+)
 AFP_LINE = gl.ProbabilityLine("AFP 1e-4", "USBR PPG (2011) [from memory]", 1e-4)
 IR_LINE = gl.ProbabilityLine("individual", "USACE (2014) [from memory]", 1e-4, measure="individual_risk")
 
@@ -113,8 +120,11 @@ def test_line_checks_compare_fn_points_with_fn_lines_only():
     line = gl.LifeLossLine("ALL 1e-2", "test", 1e-2)
     pred = rc.Figures(2e-4, 3e-3, np.array([2e-4, 1e-4, 1e-7]))
     mode = rc.Figures(5e-5, 1e-4, np.array([5e-5, 1e-5, 0.0]))
-    draws = rc.Figures(np.array([2e-4, 5e-5, 1e-4, 3e-4]), np.array([3e-2, 1e-4, 1e-3, 2e-2]),
-                       np.array([[2e-3, 1e-5, 0.0], [5e-5, 5e-6, 1e-7], [1e-4, 2e-5, 2e-6], [0.0, 0.0, 0.0]]))
+    draws = rc.Figures(
+        np.array([2e-4, 5e-5, 1e-4, 3e-4]),
+        np.array([3e-2, 1e-4, 1e-3, 2e-2]),
+        np.array([[2e-3, 1e-5, 0.0], [5e-5, 5e-6, 1e-7], [1e-4, 2e-5, 2e-6], [0.0, 0.0, 0.0]]),
+    )
     out = rc.line_checks([USACE_FN, line, AFP_LINE, IR_LINE], levels, pred, mode, draws, W)
     by = {c["line"]: c for c in out}
     # F-N limit line: against the F-N curve; predictive [2e-4, 1e-4, 1e-7]: on [10, 100) F = 1e-4 against 1e-5
@@ -161,8 +171,9 @@ def test_levee_default_lines_exclude_the_dam_only_sources():
         # protection guidelines and ANCOLD are written for dams [from memory]
         assert "Reclamation" not in ln.source and "ANCOLD" not in ln.source and "USBR" not in ln.name
         assert "US Army Corps of Engineers" in ln.source and UNVERIFIED in ln.source
-    assert not any(isinstance(ln, gl.LifeLossLine) or (isinstance(ln, gl.ProbabilityLine) and ln.on_chart)
-                   for ln in levee.lines)  # the AFP and ALL lines are USBR's
+    assert not any(
+        isinstance(ln, gl.LifeLossLine) or (isinstance(ln, gl.ProbabilityLine) and ln.on_chart) for ln in levee.lines
+    )  # the AFP and ALL lines are USBR's
     fn = [ln for ln in levee.lines if isinstance(ln, gl.FNLimitLine)]
     assert len(fn) == 1  # societal limit (1, 1e-3) to (1000, 1e-6) [from memory]
     assert gl.evaluate_line(fn[0], 1.0) == pytest.approx(1e-3)
@@ -182,8 +193,9 @@ def test_dam_and_unspecified_defaults_are_the_former_defaults():
         gl.default_guidelines("bridge")
 
 
-@pytest.mark.parametrize("folder, kind", [("tarnhollow_dam", "dam"), ("amberlow_levee", "levee"),
-                                          ("amberlow_alternatives", "levee")])
+@pytest.mark.parametrize(
+    "folder, kind", [("tarnhollow_dam", "dam"), ("amberlow_levee", "levee"), ("amberlow_alternatives", "levee")]
+)
 def test_bundled_scenarios_name_their_structure(folder, kind):
     sc = load_scenario(ROOT / "scenarios" / folder / "scenario.toml")
     assert sc.structure == kind
@@ -251,8 +263,9 @@ def test_tolerable_risk_csv_carries_the_confidence(small_run):
     w, afp_d = r.propagation.weights, r.propagation.column("afp")
     row = t[(t.reference_line == "USBR annual failure probability") & (t.curve == "predictive")].iloc[0]
     assert row.share_of_draws_above == pytest.approx(float(w[afp_d > 1e-4].sum()), abs=1e-12)
-    assert row.share_of_draws_above + row.share_of_draws_below + row.share_of_draws_not_applicable == \
-        pytest.approx(1.0, abs=1e-12)
+    assert row.share_of_draws_above + row.share_of_draws_below + row.share_of_draws_not_applicable == pytest.approx(
+        1.0, abs=1e-12
+    )
     mode = t[(t.reference_line == "USBR annual failure probability") & (t.curve == "mode")].iloc[0]
     assert np.isnan(mode.share_of_draws_above)  # the confidence is one per line, on the predictive row
     ir = t[t.kind == "individual risk line"]
@@ -278,8 +291,12 @@ def test_riskcalc_run_prints_the_reference_line_count(tmp_path, capsys):
     r = assess(load_scenario(path))
     vp, vm = r.values_predictive, r.values_mode
     levels = np.asarray(r.fn["levels"], float)
-    fn_lines = [ln for k in ("usace_2014", "ancold_2003") for ln in gl.DEFAULT_GUIDELINES[k].lines
-                if isinstance(ln, gl.FNLimitLine)]
+    fn_lines = [
+        ln
+        for k in ("usace_2014", "ancold_2003")
+        for ln in gl.DEFAULT_GUIDELINES[k].lines
+        if isinstance(ln, gl.FNLimitLine)
+    ]
 
     def count(v, fn):
         k = int(v["afp"] > 1e-4) + int(v["all_incremental"] > 1e-3) + int(v["all_incremental"] > 1e-2)

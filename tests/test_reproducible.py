@@ -31,8 +31,10 @@ draws_per_realization = 3
 figures = false
 """
 UNCERTAIN_RATING = 'table = "rating.csv"\nknowledge_sd = 0.2'
-UNCERTAIN_CONS = ('table = "consequences.csv"\n[consequences.damage_multiplier]\ndistribution = "triangular"\n'
-                  'low = 0.5\nmode = 1.0\nhigh = 2.0')
+UNCERTAIN_CONS = (
+    'table = "consequences.csv"\n[consequences.damage_multiplier]\ndistribution = "triangular"\n'
+    "low = 0.5\nmode = 1.0\nhigh = 2.0"
+)
 
 
 def uncertain_scenario(factory, folder, seed=42):
@@ -131,6 +133,7 @@ def _fail_on_call(n, exc):
         if calls["n"] >= n:
             raise exc
         real(path, df)
+
     return fake
 
 

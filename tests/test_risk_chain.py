@@ -26,12 +26,14 @@ def test_cornell_closed_form_power_law_hazard_lognormal_fragility():
     # 4,000 log-spaced cells.
     k0, k, theta, beta = 1e-4, 3.0, 1.0, 0.4
     grid = np.geomspace(1e-3, 1e3, 4000)
-    p = np.minimum(1.0, k0 * grid ** -k)
-    model = ResponseChain(failure_modes=(FailureMode("m", (FragilityCurve("lognormal", median=theta, spread=beta),)),),
-                          consequences=zero_consequences())
+    p = np.minimum(1.0, k0 * grid**-k)
+    model = ResponseChain(
+        failure_modes=(FailureMode("m", (FragilityCurve("lognormal", median=theta, spread=beta),)),),
+        consequences=zero_consequences(),
+    )
     G = model.integrands(evaluation_points(grid, True))
     afp = cell_masses(p) @ G[:, 0]
-    assert afp == pytest.approx(k0 * theta ** -k * np.exp(k * k * beta * beta / 2), rel=1e-3)
+    assert afp == pytest.approx(k0 * theta**-k * np.exp(k * k * beta * beta / 2), rel=1e-3)
     assert afp == pytest.approx(2.0544332e-4, rel=1e-3)
 
 
@@ -39,8 +41,12 @@ def test_gauss_hermite_natural_variability_normal_fragility():
     # closed form: a normal fragility (mean mu, sd s_f) seen through stage scatter N(0, s_h) is a normal
     # fragility with sd sqrt(s_f^2 + s_h^2) (convolution of normals, common practice)
     frag = FragilityCurve("normal", median=5.0, spread=0.4)
-    model = ResponseChain(failure_modes=(FailureMode("m", (frag,)),), consequences=zero_consequences(),
-                          natural=StageSpread(0.3), hermite_nodes=24)
+    model = ResponseChain(
+        failure_modes=(FailureMode("m", (frag,)),),
+        consequences=zero_consequences(),
+        natural=StageSpread(0.3),
+        hermite_nodes=24,
+    )
     h = np.linspace(3, 7, 41)
     got = model.integrands(h)[:, 0]
     np.testing.assert_allclose(got, sc.ndtr((h - 5.0) / np.hypot(0.4, 0.3)), atol=1e-10)
@@ -54,7 +60,9 @@ def test_independent_failure_modes_and_the_dependent_lower_bound():
     # monotone tables need increasing probabilities: order the stages by probability
     order = np.array([2, 0, 1])  # 1e-12 < 0.1 < 0.5 (and 3e-12 < 0.2 < 0.5)
     stages = np.array([1.0, 2.0, 3.0])
-    fms = tuple(FailureMode(f"m{i}", (FragilityCurve("table", stage=stages, probability=p[i][order]),)) for i in range(2))
+    fms = tuple(
+        FailureMode(f"m{i}", (FragilityCurve("table", stage=stages, probability=p[i][order]),)) for i in range(2)
+    )
     chain = ResponseChain(failure_modes=fms, consequences=zero_consequences((0.0, 4.0)))
     G = chain.integrands(stages)
     names = chain.output_names()
@@ -74,12 +82,15 @@ def test_node_chain_multiplies():
 def test_linearity_identity_deterministic_and_aleatory(scenario_factory):
     # the weighted mean of per-realization risks equals the risk on the predictive masses (design identity)
     for extra in ("", "[rating]\ntable = 'rating.csv'\nnatural_sd = 0.3\n"):
-        path = scenario_factory(folder=f"lin{len(extra)}", rating=None if extra else
-                                "discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,4.0\n10000,7.0\n100000,11.0\n",
-                                toml_extra="")
+        path = scenario_factory(
+            folder=f"lin{len(extra)}",
+            rating=None if extra else "discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,4.0\n10000,7.0\n100000,11.0\n",
+            toml_extra="",
+        )
         if extra:
-            (path.parent / "rating.csv").write_text("discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,4.0\n10000,7.0\n"
-                                                    "100000,11.0\n")
+            (path.parent / "rating.csv").write_text(
+                "discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,4.0\n10000,7.0\n100000,11.0\n"
+            )
             path.write_text(path.read_text() + extra)
         res = assess(load_scenario(path))
         prop = res.propagation
@@ -87,7 +98,10 @@ def test_linearity_identity_deterministic_and_aleatory(scenario_factory):
             mean = prop.weights @ prop.values[:, i]
             pred = prop.point_masses_predictive @ prop.integrands[:, i]
             assert mean == pytest.approx(pred, rel=1e-10, abs=1e-300), name
-        assert res.headline["annual_failure_probability"]["predictive"] > res.headline["annual_failure_probability"]["mode"]
+        assert (
+            res.headline["annual_failure_probability"]["predictive"]
+            > res.headline["annual_failure_probability"]["mode"]
+        )
 
 
 def test_step_fragility_gives_predictive_aep_of_the_step(scenario_factory):
@@ -127,9 +141,16 @@ def test_ead_against_closed_form_normal_stage_hazard(scenario_factory):
     z0 = (h0 - mu) / sd
     exact = c * (sd * stats.norm.pdf(z0) - (h0 - mu) * stats.norm.sf(z0))
     for rule in ("midpoint", "trapezoid"):
-        path = scenario_factory(folder=f"ead-{rule}", ensemble=f"mean,sd\n{mu},{sd}\n", family="normal", rating=None,
-                                variable="stage", conseq=conseq, modes=modes,
-                                toml_extra=f"[grid]\nrule = '{rule}'\naep_max = 0.9999999\n")
+        path = scenario_factory(
+            folder=f"ead-{rule}",
+            ensemble=f"mean,sd\n{mu},{sd}\n",
+            family="normal",
+            rating=None,
+            variable="stage",
+            conseq=conseq,
+            modes=modes,
+            toml_extra=f"[grid]\nrule = '{rule}'\naep_max = 0.9999999\n",
+        )
         (path.parent / "one.csv").write_text("stage_m,probability\n-100,1\n100,1\n")
         res = assess(load_scenario(path))
         assert res.headline["expected_annual_damage"]["predictive"] == pytest.approx(exact, rel=1e-3), rule
@@ -144,8 +165,9 @@ def test_crest_at_mode_design_stage_is_exceeded_more_often_student_t(scenario_fa
     sigma = np.sqrt((n - 1) * s * s / rng.chisquare(n - 1, R))
     mu = rng.normal(ybar, sigma / np.sqrt(n))
     ens = "mean,sd,skew\n" + "\n".join(f"{a:.10g},{b:.10g},0" for a, b in zip(mu, sigma)) + "\n"
-    path = scenario_factory(folder="crest", ensemble=ens,
-                            toml_extra=f"[hazard.mode]\nmean = {ybar}\nsd = {s}\nskew = 0.0\n")
+    path = scenario_factory(
+        folder="crest", ensemble=ens, toml_extra=f"[hazard.mode]\nmean = {ybar}\nsd = {s}\nskew = 0.0\n"
+    )
     res = assess(load_scenario(path), grid_points=400)
     crest = res.crest["mode"]
     exact = stats.t.sf(-sc.ndtri(0.01) * np.sqrt(n / (n + 1)), n - 1)
@@ -156,7 +178,8 @@ def test_crest_at_mode_design_stage_is_exceeded_more_often_student_t(scenario_fa
     assert abs(crest["aep_on_predictive"] - exact) < 4 * se
     assert crest["aep_on_predictive"] > 0.01
     assert crest["chance_in_years_predictive_independent_years"] == pytest.approx(
-        1 - (1 - crest["aep_on_predictive"]) ** 50, rel=1e-12)
+        1 - (1 - crest["aep_on_predictive"]) ** 50, rel=1e-12
+    )
     # Jensen: 1 - (1 - p)^n is concave in p, so the mean over curves is below the chance at the mean AEP
     assert crest["chance_in_years_predictive"] < crest["chance_in_years_predictive_independent_years"]
     # the median curve's design flood is exceeded more often than 1 % too (common practice)
@@ -174,10 +197,12 @@ def test_grid_convergence_doubling(scenario_factory):
 
 
 def test_same_seed_same_numbers_and_workers_do_not_matter(scenario_factory):
-    path = scenario_factory(folder="seed", toml_extra=(
-        "[uncertainty]\ndraws_per_realization = 3\n"))
-    path.write_text(path.read_text().replace('[rating]\ntable = "rating.csv"\n',
-                                             '[rating]\ntable = "rating.csv"\nknowledge_sd = 0.2\n'))
+    path = scenario_factory(folder="seed", toml_extra=("[uncertainty]\ndraws_per_realization = 3\n"))
+    path.write_text(
+        path.read_text().replace(
+            '[rating]\ntable = "rating.csv"\n', '[rating]\ntable = "rating.csv"\nknowledge_sd = 0.2\n'
+        )
+    )
     sc_ = load_scenario(path)
     assert sc_.model.has_knowledge_uncertainty
     a = assess(sc_, workers=1)
@@ -195,13 +220,14 @@ def test_fn_curve_definition():
     z = np.zeros(3)
     cons = ConsequenceCurves(stages, z, z, np.array([0.0, 5.0, 50.0]), z)
     on = ResponseChain(failure_modes=(FailureMode("m", (frag,)),), consequences=cons).on(stages)
-    np.testing.assert_allclose(m @ on.fn_integrand(np.array([1.0, 5.0, 10.0, 100.0]))[0],
-                               [0.005 + 0.001, 0.006, 0.001, 0.0])
+    np.testing.assert_allclose(
+        m @ on.fn_integrand(np.array([1.0, 5.0, 10.0, 100.0]))[0], [0.005 + 0.001, 0.006, 0.001, 0.0]
+    )
 
 
 def test_chance_in_years():
     # 1 - (1 - p)^n, e.g. the 1 % flood in 100 years: 63.4 % (common practice)
-    assert chance_in_years(0.01, 100) == pytest.approx(1 - 0.99 ** 100, rel=1e-14)
+    assert chance_in_years(0.01, 100) == pytest.approx(1 - 0.99**100, rel=1e-14)
     assert chance_in_years(1e-12, 50) == pytest.approx(5e-11, rel=1e-9)
 
 
@@ -226,15 +252,19 @@ def test_fn_uses_incremental_life_loss_and_natural_variability():
     np.testing.assert_allclose(F, [[1.0, 1.0, 0.0]])
     # with stage scatter and a normal fragility, P_f is averaged over the same nodes as the indicator
     frag = FragilityCurve("normal", median=5.0, spread=0.4)
-    m2 = ResponseChain(failure_modes=(FailureMode("m", (frag,)),), consequences=cons, natural=StageSpread(0.3),
-                       hermite_nodes=24)
+    m2 = ResponseChain(
+        failure_modes=(FailureMode("m", (frag,)),), consequences=cons, natural=StageSpread(0.3), hermite_nodes=24
+    )
     np.testing.assert_allclose(m2.on(np.array([5.0])).fn_integrand(np.array([1.0]))[0, 0, 0], 0.5, atol=1e-12)
 
 
 def test_linearity_note_with_knowledge_uncertainty(scenario_factory):
     path = scenario_factory(folder="lin-k", toml_extra="[uncertainty]\ndraws_per_realization = 2\n")
-    path.write_text(path.read_text().replace('[rating]\ntable = "rating.csv"\n',
-                                             '[rating]\ntable = "rating.csv"\nknowledge_sd = 0.2\n'))
+    path.write_text(
+        path.read_text().replace(
+            '[rating]\ntable = "rating.csv"\n', '[rating]\ntable = "rating.csv"\nknowledge_sd = 0.2\n'
+        )
+    )
     res = assess(load_scenario(path))
     prop = res.propagation
     nominal = res.scenario.ensemble.weights @ prop.nominal_values
@@ -272,7 +302,7 @@ def test_n_year_chance_against_simulated_sequences_per_realization():
     from scipy import stats as st
 
     rng = np.random.default_rng(2024)
-    R, n, x = 400, 50, 10 ** 3.2
+    R, n, x = 400, 50, 10**3.2
     mean, sd = rng.normal(2.7, 0.12, R), rng.uniform(0.2, 0.35, R)
     w = rng.uniform(0.5, 1.5, R)
     w /= w.sum()

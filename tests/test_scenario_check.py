@@ -20,32 +20,74 @@ def cli(argv, capsys):
 
 
 CASES = [
-    ("missing table file", lambda p: p.write_text(p.read_text().replace('table = "rating.csv"', 'table = "nope.csv"')),
-     r"nope.csv: file not found"),
-    ("unknown key", lambda p: p.write_text(p.read_text() + "\n[grid]\npoints = 100\nspacing = 'odd'\n"),
-     r"scenario.toml, key 'grid.spacing': unknown key"),
-    ("non-increasing rating", lambda p: (p.parent / "rating.csv").write_text(
-        "discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,1.5\n"), r"rating.csv, row 4, column 'stage_m': stage 1.5 is not above"),
-    ("probability outside [0, 1]", lambda p: p.write_text(p.read_text() + "\n[checks]\ndesign_aep = 1.5\n"),
-     r"key 'checks.design_aep': 1.5 is outside \(0, 1\)"),
-    ("negative damage", lambda p: (p.parent / "consequences.csv").write_text(
-        "stage_m,damage_breach_usd\n1,0\n2,-5\n"), r"consequences.csv, row 3, column 'damage_breach_usd': -5 must not be negative"),
-    ("mismatched stage unit", lambda p: (p.parent / "rating.csv").write_text(
-        "discharge_m3s,stage_ft\n10,1.0\n100,2.0\n"), r"rating.csv, row 1, column 'stage_ft': unit 'ft' does not match"),
-    ("mismatched currency", lambda p: (p.parent / "consequences.csv").write_text(
-        "stage_m,damage_breach_eur\n1,0\n2,5\n"), r"currency 'eur' does not match the scenario's currency 'usd'"),
-    ("wrong type", lambda p: p.write_text(p.read_text().replace("seed = 42", 'seed = "forty-two"')),
-     r"key 'seed': expected an integer, got text"),
-    ("duplicate mode names", lambda p: p.write_text(p.read_text().replace(
-        "[consequences]", '[[failure_modes]]\nname = "breach"\n  [[failure_modes.nodes]]\n  kind = "normal"\n  '
-        'median = 6.0\n  spread = 0.5\n[consequences]')), r"failure-mode name 'breach' is used twice"),
-    ("fragility probability above 1", lambda p: (
-        (p.parent / "frag.csv").write_text("stage_m,probability\n1,0\n2,1.2\n"),
-        p.write_text(p.read_text().replace('kind = "normal"\n  median = 5.0\n  spread = 0.5',
-                                           'kind = "table"\n  table = "frag.csv"'))),
-     r"frag.csv, row 3, column 'probability': 1.2 is outside \[0.0, 1.0\]"),
-    ("self include", lambda p: p.write_text('base = "scenario.toml"\n' + p.read_text()),
-     r"key 'base': the scenario includes itself"),
+    (
+        "missing table file",
+        lambda p: p.write_text(p.read_text().replace('table = "rating.csv"', 'table = "nope.csv"')),
+        r"nope.csv: file not found",
+    ),
+    (
+        "unknown key",
+        lambda p: p.write_text(p.read_text() + "\n[grid]\npoints = 100\nspacing = 'odd'\n"),
+        r"scenario.toml, key 'grid.spacing': unknown key",
+    ),
+    (
+        "non-increasing rating",
+        lambda p: (p.parent / "rating.csv").write_text("discharge_m3s,stage_m\n10,1.0\n100,2.0\n1000,1.5\n"),
+        r"rating.csv, row 4, column 'stage_m': stage 1.5 is not above",
+    ),
+    (
+        "probability outside [0, 1]",
+        lambda p: p.write_text(p.read_text() + "\n[checks]\ndesign_aep = 1.5\n"),
+        r"key 'checks.design_aep': 1.5 is outside \(0, 1\)",
+    ),
+    (
+        "negative damage",
+        lambda p: (p.parent / "consequences.csv").write_text("stage_m,damage_breach_usd\n1,0\n2,-5\n"),
+        r"consequences.csv, row 3, column 'damage_breach_usd': -5 must not be negative",
+    ),
+    (
+        "mismatched stage unit",
+        lambda p: (p.parent / "rating.csv").write_text("discharge_m3s,stage_ft\n10,1.0\n100,2.0\n"),
+        r"rating.csv, row 1, column 'stage_ft': unit 'ft' does not match",
+    ),
+    (
+        "mismatched currency",
+        lambda p: (p.parent / "consequences.csv").write_text("stage_m,damage_breach_eur\n1,0\n2,5\n"),
+        r"currency 'eur' does not match the scenario's currency 'usd'",
+    ),
+    (
+        "wrong type",
+        lambda p: p.write_text(p.read_text().replace("seed = 42", 'seed = "forty-two"')),
+        r"key 'seed': expected an integer, got text",
+    ),
+    (
+        "duplicate mode names",
+        lambda p: p.write_text(
+            p.read_text().replace(
+                "[consequences]",
+                '[[failure_modes]]\nname = "breach"\n  [[failure_modes.nodes]]\n  kind = "normal"\n  '
+                "median = 6.0\n  spread = 0.5\n[consequences]",
+            )
+        ),
+        r"failure-mode name 'breach' is used twice",
+    ),
+    (
+        "fragility probability above 1",
+        lambda p: (
+            (p.parent / "frag.csv").write_text("stage_m,probability\n1,0\n2,1.2\n"),
+            p.write_text(
+                p.read_text().replace(
+                    'kind = "normal"\n  median = 5.0\n  spread = 0.5', 'kind = "table"\n  table = "frag.csv"'
+                )
+            ),
+        ),
+        r"frag.csv, row 3, column 'probability': 1.2 is outside \[0.0, 1.0\]",
+    ),
+    (
+        "self include",
+        lambda p: p.write_text('base = "scenario.toml"\n' + p.read_text()),
+        r"key 'base': the scenario includes itself",
+    ),
     ("not toml", lambda p: p.write_text("title = \n"), r"scenario.toml: is not valid TOML"),
 ]
 
@@ -131,9 +173,17 @@ def test_check_refuses_a_misspelt_key_in_every_section(scenario_factory, capsys,
     assert lines[0].startswith(f"riskcalc: error: {path}, key '{key}': unknown key; expected one of "), lines[0]
 
 
-AGREE = ["sensitivity-unknown-factor", "sensitivity-n-not-power-of-two", "guidelines-line-probability-above-1",
-         "economics-future-short-ensemble", "alternative-bad-node-kind", "alternative-missing-table",
-         "alternative-without-economics", "alternative-future-bad-node", "scenario-draws-zero"]
+AGREE = [
+    "sensitivity-unknown-factor",
+    "sensitivity-n-not-power-of-two",
+    "guidelines-line-probability-above-1",
+    "economics-future-short-ensemble",
+    "alternative-bad-node-kind",
+    "alternative-missing-table",
+    "alternative-without-economics",
+    "alternative-future-bad-node",
+    "scenario-draws-zero",
+]
 
 
 @pytest.mark.parametrize("label", AGREE)
@@ -171,10 +221,12 @@ def test_check_never_starts_the_monte_carlo(scenario_factory, capsys, monkeypatc
             monkeypatch.setattr(module, "propagate", refuse)
     (tmp_path / "sc").mkdir()
     (tmp_path / "sc" / "cons2.csv").write_text("stage_m,damage_breach_usd\n2.0,0\n9.0,1.0e6\n")
-    extra = ("[sensitivity]\nenabled = true\nn = 64\n[guidelines]\ninclude = ['usbr_2011']\n"
-             "[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2070\ndamage_factor = 1.2\n"
-             "[[alternatives]]\nname = 'smaller damage'\nfirst_cost = 1.0e5\n"
-             "[alternatives.consequences]\ntable = 'cons2.csv'\n")
+    extra = (
+        "[sensitivity]\nenabled = true\nn = 64\n[guidelines]\ninclude = ['usbr_2011']\n"
+        "[economics]\nrate = 0.03\nbase_year = 2030\n[economics.future]\nyear = 2070\ndamage_factor = 1.2\n"
+        "[[alternatives]]\nname = 'smaller damage'\nfirst_cost = 1.0e5\n"
+        "[alternatives.consequences]\ntable = 'cons2.csv'\n"
+    )
     path = scenario_factory(folder="sc", toml_extra=extra)
     code, out, err = cli(["check", path], capsys)
     assert code == 0 and "valid" in out, err
@@ -183,11 +235,14 @@ def test_check_never_starts_the_monte_carlo(scenario_factory, capsys, monkeypatc
         main(["run", str(path), "--out", str(tmp_path / "res"), "--quiet"])
 
 
-@pytest.mark.parametrize("option, value, words", [
-    ("--n", 1000, "key '--n': 1000 is not a power of two; expected a power of two >= 16"),
-    ("--seed", 0, "key '--seed': 0 is below 1; expected an integer >= 1"),
-    ("--target-width", 2.0, "key '--target-width': 2.0 is outside (0, 1); expected a confidence half-width"),
-])
+@pytest.mark.parametrize(
+    "option, value, words",
+    [
+        ("--n", 1000, "key '--n': 1000 is not a power of two; expected a power of two >= 16"),
+        ("--seed", 0, "key '--seed': 0 is below 1; expected an integer >= 1"),
+        ("--target-width", 2.0, "key '--target-width': 2.0 is outside (0, 1); expected a confidence half-width"),
+    ],
+)
 def test_sensitivity_options_go_through_the_schema(scenario_factory, capsys, tmp_path, option, value, words):
     path = scenario_factory(folder="sc")
     out = tmp_path / "sens"
@@ -228,8 +283,22 @@ first_cost = 2.0e5
 
 
 def _settings(sc):
-    return (sc.title, sc.seed, sc.units, sc.grid, sc.uncertainty, sc.checks, sc.outputs, sc.sensitivity,
-            sc.guidelines, sc.economics, sc.alternatives, sc.raw, sc.ensemble.size, sc.model.failure_mode_names)
+    return (
+        sc.title,
+        sc.seed,
+        sc.units,
+        sc.grid,
+        sc.uncertainty,
+        sc.checks,
+        sc.outputs,
+        sc.sensitivity,
+        sc.guidelines,
+        sc.economics,
+        sc.alternatives,
+        sc.raw,
+        sc.ensemble.size,
+        sc.model.failure_mode_names,
+    )
 
 
 @pytest.mark.parametrize("bom, crlf", [(True, False), (False, True), (True, True)], ids=["bom", "crlf", "bom+crlf"])

@@ -36,8 +36,7 @@ def refused(section, table, prefix=None):
 # --------------------------------------------------------------------------
 def test_defaults_are_filled_as_documented():
     # the defaults of docs/scenario-format.md
-    assert S.validate("grid", {}, F, "grid.") == {"points": 2000, "aep_max": 0.999, "aep_min": 1e-7,
-                                                   "rule": "midpoint"}
+    assert S.validate("grid", {}, F, "grid.") == {"points": 2000, "aep_max": 0.999, "aep_min": 1e-7, "rule": "midpoint"}
     assert S.validate("uncertainty", {}, F) == {"draws_per_realization": 1, "hermite_nodes": 16, "workers": 0}
     assert S.validate("checks", {}, F) == {"design_aep": 0.01, "years": 50, "crest_stage": None}
 
@@ -45,40 +44,78 @@ def test_defaults_are_filled_as_documented():
 def test_an_integer_is_a_number_but_true_is_neither():
     r = S.validate("rating", {"table": "r.csv", "natural_sd": 1}, F, "rating.")
     assert r["natural_sd"] == 1.0 and type(r["natural_sd"]) is float
-    assert refused("rating", {"table": "r.csv", "natural_sd": True}).detail == \
-        "expected a number, got true or false True"
+    assert (
+        refused("rating", {"table": "r.csv", "natural_sd": True}).detail == "expected a number, got true or false True"
+    )
     assert refused("checks", {"years": True}).detail == "expected an integer, got true or false True"
     assert refused("checks", {"years": 2.0}).detail == "expected an integer, got a number 2.0"
 
 
-@pytest.mark.parametrize("section, table, key, detail", [
-    ("grid", {"points": 3}, "grid.points", "3 is outside 50 to 200000; expected a number of grid points"),
-    ("grid", {"aep_max": 1.0}, "grid.aep_max", "1.0 is outside (0, 1); expected a probability"),
-    ("grid", {"rule": "simpson"}, "grid.rule", "'simpson' is not midpoint or trapezoid"),
-    ("grid", {"spacing": "log"}, "grid.spacing", "unknown key; expected one of aep_max, aep_min, points, rule"),
-    ("economics", {"rate": 1.0}, "economics.rate",
-     "1.0 is outside [0, 1); expected the discount rate as a fraction, e.g. 0.03"),
-    ("economics", {}, "economics.rate", "missing required key; expected the discount rate as a fraction, e.g. 0.03"),
-    ("uncertainty", {"workers": -1}, "uncertainty.workers",
-     "-1 is negative; expected 0 (the machine's cores) or a number of threads"),
-    ("checks", {"years": 0}, "checks.years", "0 is below 1; expected a number of years >= 1"),
-    ("checks", {"design_aep": math.nan}, "checks.design_aep", "nan is not finite"),
-    ("checks", {"years": "ten"}, "checks.years", "expected an integer, got text 'ten'"),
-    ("sensitivity", {"morris_levels": 3}, "sensitivity.morris_levels",
-     "3 is not even; expected an even integer from 2 to 20"),
-    ("sensitivity", {"gap_samples": 100}, "sensitivity.gap_samples",
-     "100 is not a power of two; expected a power of two from 64 to 65536"),
-    ("sensitivity", {"groups": {"g": ["a", 3]}}, "sensitivity.groups.g[2]", "expected text, got an integer 3"),
-    ("fn_line", dict(FN, slope=0.5), "fn_line.slope", "0.5 is above 0; expected a number <= 0 (a falling line)"),
-    ("fn_line", dict(FN, n_max=math.nan), "fn_line.n_max", "nan is not finite"),
-    ("life_loss_line", {"name": "a", "source": "s", "value": 0}, "life_loss_line.value",
-     "0.0 is not above 0; expected a positive annualized life loss [lives/yr]"),
-    ("economics_future", {"year": 2050, "damage_factor": 0}, "economics_future.damage_factor",
-     "0.0 is not above 0; expected a growth factor on damage > 0"),
-    ("alternative", {"name": " ", "first_cost": 1.0}, "alternative.name", "is empty; expected the alternative's name"),
-    ("units", {"stage": "yd"}, "units.stage", "'yd' is not m or ft"),
-    ("outputs", "yes", "outputs", "expected a table of settings, got text 'yes'"),
-])
+@pytest.mark.parametrize(
+    "section, table, key, detail",
+    [
+        ("grid", {"points": 3}, "grid.points", "3 is outside 50 to 200000; expected a number of grid points"),
+        ("grid", {"aep_max": 1.0}, "grid.aep_max", "1.0 is outside (0, 1); expected a probability"),
+        ("grid", {"rule": "simpson"}, "grid.rule", "'simpson' is not midpoint or trapezoid"),
+        ("grid", {"spacing": "log"}, "grid.spacing", "unknown key; expected one of aep_max, aep_min, points, rule"),
+        (
+            "economics",
+            {"rate": 1.0},
+            "economics.rate",
+            "1.0 is outside [0, 1); expected the discount rate as a fraction, e.g. 0.03",
+        ),
+        (
+            "economics",
+            {},
+            "economics.rate",
+            "missing required key; expected the discount rate as a fraction, e.g. 0.03",
+        ),
+        (
+            "uncertainty",
+            {"workers": -1},
+            "uncertainty.workers",
+            "-1 is negative; expected 0 (the machine's cores) or a number of threads",
+        ),
+        ("checks", {"years": 0}, "checks.years", "0 is below 1; expected a number of years >= 1"),
+        ("checks", {"design_aep": math.nan}, "checks.design_aep", "nan is not finite"),
+        ("checks", {"years": "ten"}, "checks.years", "expected an integer, got text 'ten'"),
+        (
+            "sensitivity",
+            {"morris_levels": 3},
+            "sensitivity.morris_levels",
+            "3 is not even; expected an even integer from 2 to 20",
+        ),
+        (
+            "sensitivity",
+            {"gap_samples": 100},
+            "sensitivity.gap_samples",
+            "100 is not a power of two; expected a power of two from 64 to 65536",
+        ),
+        ("sensitivity", {"groups": {"g": ["a", 3]}}, "sensitivity.groups.g[2]", "expected text, got an integer 3"),
+        ("fn_line", dict(FN, slope=0.5), "fn_line.slope", "0.5 is above 0; expected a number <= 0 (a falling line)"),
+        ("fn_line", dict(FN, n_max=math.nan), "fn_line.n_max", "nan is not finite"),
+        (
+            "life_loss_line",
+            {"name": "a", "source": "s", "value": 0},
+            "life_loss_line.value",
+            "0.0 is not above 0; expected a positive annualized life loss [lives/yr]",
+        ),
+        (
+            "economics_future",
+            {"year": 2050, "damage_factor": 0},
+            "economics_future.damage_factor",
+            "0.0 is not above 0; expected a growth factor on damage > 0",
+        ),
+        (
+            "alternative",
+            {"name": " ", "first_cost": 1.0},
+            "alternative.name",
+            "is empty; expected the alternative's name",
+        ),
+        ("units", {"stage": "yd"}, "units.stage", "'yd' is not m or ft"),
+        ("outputs", "yes", "outputs", "expected a table of settings, got text 'yes'"),
+    ],
+)
 def test_refused_values_read_as_one_line(section, table, key, detail):
     err = refused(section, table)
     assert (err.key, err.detail) == (key, detail)
@@ -138,8 +175,9 @@ def test_sensitivity_settings_have_the_schema_fields_and_defaults():
             assert fields[k].default == default, k
 
 
-@pytest.mark.parametrize("cls, section", [(FNLimitLine, "fn_line"), (LifeLossLine, "life_loss_line"),
-                                          (ProbabilityLine, "probability_line")])
+@pytest.mark.parametrize(
+    "cls, section", [(FNLimitLine, "fn_line"), (LifeLossLine, "life_loss_line"), (ProbabilityLine, "probability_line")]
+)
 def test_guideline_lines_have_the_schema_fields_and_defaults(cls, section):
     spec = S.SCHEMA[section]
     fields = {f.name: f for f in dataclasses.fields(cls)}
@@ -184,8 +222,10 @@ def test_a_factor_in_two_groups_is_refused():
 # --------------------------------------------------------------------------
 def _toml_blocks(doc):
     text = (ROOT / "docs" / doc).read_text()
-    return [tomllib.loads("\n".join(ln for ln in b.splitlines() if ln.strip() != "..."))
-            for b in re.findall(r"```toml\n(.*?)```", text, flags=re.S)]
+    return [
+        tomllib.loads("\n".join(ln for ln in b.splitlines() if ln.strip() != "..."))
+        for b in re.findall(r"```toml\n(.*?)```", text, flags=re.S)
+    ]
 
 
 def test_the_annotated_scenario_example_is_valid():

@@ -37,7 +37,7 @@ ISHIGAMI_S13 = 0.243684  # = ST1 - S1_1 = V13 / V; all other S2 are 0
 
 def ishigami(X, a=7.0, b=0.1):
     x1, x2, x3 = X[:, 0], X[:, 1], X[:, 2]
-    return np.sin(x1) + a * np.sin(x2) ** 2 + b * x3 ** 4 * np.sin(x1)
+    return np.sin(x1) + a * np.sin(x2) ** 2 + b * x3**4 * np.sin(x1)
 
 
 ISHIGAMI_FACTORS = [Factor(f"x{i}", "uniform", -PI, PI) for i in (1, 2, 3)]
@@ -255,9 +255,7 @@ def test_wrong_output_shape_and_missing_output_raise():
 
 
 def test_constant_output_gives_nan_with_note():
-    res = sobol_indices(
-        lambda X: {"AFP": np.zeros(len(X)), "EAD": ishigami(X)}, ISHIGAMI_FACTORS, n=64, seed=1
-    )
+    res = sobol_indices(lambda X: {"AFP": np.zeros(len(X)), "EAD": ishigami(X)}, ISHIGAMI_FACTORS, n=64, seed=1)
     afp = res["AFP"]
     assert np.all(np.isnan(afp.S1)) and np.all(np.isnan(afp.ST_conf))
     assert "constant" in afp.note
@@ -365,8 +363,13 @@ def test_realization_factor_map_frequencies_and_zero_weight():
 
 @pytest.mark.parametrize(
     "u, w, order",
-    [([1.2], [0.5, 0.5], None), ([np.nan], [0.5, 0.5], None), ([0.5], [0.5, -0.1], None),
-     ([0.5], [0.0, 0.0], None), ([0.5], [0.5, 0.5], [0, 0])],
+    [
+        ([1.2], [0.5, 0.5], None),
+        ([np.nan], [0.5, 0.5], None),
+        ([0.5], [0.5, -0.1], None),
+        ([0.5], [0.0, 0.0], None),
+        ([0.5], [0.5, 0.5], [0, 0]),
+    ],
 )
 def test_realization_factor_map_bad_input(u, w, order):
     with pytest.raises(ValueError):

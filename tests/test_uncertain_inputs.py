@@ -30,8 +30,14 @@ shift_sd = 0.3
 def test_sampling_is_rvs_in_declaration_order_and_quantiles_are_ppf():
     # reference library: scipy.stats frozen distributions; the registry draws each parameter in turn from
     # one generator (the order that makes common random numbers possible) and maps probabilities by ppf
-    reg = UncertainInputs((unc.rating_offset(0.2), unc.fragility_spread(0, "m", 0.8, 1.2),
-                           unc.consequence_factor("damage", "triangular", low=0.5, mode=1.0, high=2.0)), 1)
+    reg = UncertainInputs(
+        (
+            unc.rating_offset(0.2),
+            unc.fragility_spread(0, "m", 0.8, 1.2),
+            unc.consequence_factor("damage", "triangular", low=0.5, mode=1.0, high=2.0),
+        ),
+        1,
+    )
     got = reg.sample(np.random.default_rng(5), 7)
     rng = np.random.default_rng(5)
     off = stats.norm(0, 0.2).rvs(size=7, random_state=rng)
@@ -49,8 +55,11 @@ def test_sampling_is_rvs_in_declaration_order_and_quantiles_are_ppf():
     nom = reg.nominal(3)
     np.testing.assert_array_equal(nom.stage_offset, 0.0)
     np.testing.assert_array_equal(nom.damage_factor, 1.0)  # the triangular mode
-    assert reg.signature == (("rating_offset", "norm"), ("fragility_spread:m", "uniform"),
-                             ("damage_multiplier", "triang"))
+    assert reg.signature == (
+        ("rating_offset", "norm"),
+        ("fragility_spread:m", "uniform"),
+        ("damage_multiplier", "triang"),
+    )
 
 
 def test_parameters_on_one_target_combine():
@@ -73,14 +82,25 @@ def test_a_new_parameter_in_the_registry_reaches_monte_carlo_sobol_and_the_nomin
     sc = load_scenario(scenario_factory(folder="newparam", modes=SHIFTED, toml_extra="[grid]\npoints = 200\n"))
     res = assess(sc)
     chain = sc.model
-    extra = UncertainParameter("datum_error", "rating", "stage_offset", stats.norm(0.4, 0.25), 0.4,
-                               description="survey datum error, normal(0.4, 0.25) [m]", units="m")
-    chain2 = type(chain)(failure_modes=chain.failure_modes, consequences=chain.consequences, rating=chain.rating,
-                         natural=chain.natural, uncertain=chain.uncertain.with_parameter(extra),
-                         hermite_nodes=chain.hermite_nodes)
+    extra = UncertainParameter(
+        "datum_error",
+        "rating",
+        "stage_offset",
+        stats.norm(0.4, 0.25),
+        0.4,
+        description="survey datum error, normal(0.4, 0.25) [m]",
+        units="m",
+    )
+    chain2 = type(chain)(
+        failure_modes=chain.failure_modes,
+        consequences=chain.consequences,
+        rating=chain.rating,
+        natural=chain.natural,
+        uncertain=chain.uncertain.with_parameter(extra),
+        hermite_nodes=chain.hermite_nodes,
+    )
     # Sobol' factors
-    assert [f.name for f in scenario_factors(chain2)] == ["hazard_realization", "fragility_shift:breach",
-                                                          "datum_error"]
+    assert [f.name for f in scenario_factors(chain2)] == ["hazard_realization", "fragility_shift:breach", "datum_error"]
     # nominal response: the 0.4 m offset moves stage up, so the nominal AFP of every realization rises, and
     # equals the original chain evaluated 0.4 m higher (a shift of the fragility by -0.4 m)
     pts = evaluation_points(res.grid, True, "midpoint")
@@ -112,8 +132,10 @@ def test_inputs_without_spread_are_not_uncertain_but_keep_their_value(scenario_f
     # a range of one value and a lognormal multiplier with beta 0 are constants: no factor, no draw, but the
     # constant still scales (spread x 1.2; damage x 2)
     modes = SHIFTED.replace("shift_sd = 0.3\n", "spread_range = [1.2, 1.2]\n")
-    extra = ('[consequences]\ntable = "consequences.csv"\n'
-             'damage_multiplier = { distribution = "lognormal", median = 2.0, beta = 0.0 }\n')
+    extra = (
+        '[consequences]\ntable = "consequences.csv"\n'
+        'damage_multiplier = { distribution = "lognormal", median = 2.0, beta = 0.0 }\n'
+    )
     path = scenario_factory(folder="const", modes=modes)
     text = path.read_text().replace('[consequences]\ntable = "consequences.csv"\n', extra)
     path.write_text(text)

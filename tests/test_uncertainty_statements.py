@@ -23,20 +23,27 @@ RATING = RatingCurve(np.array([10.0, 100.0, 1000.0, 10000.0, 1e5]), np.array([1.
 
 def _chain(life_factor=None):
     st = np.array([2.0, 4.0, 6.0, 9.0])
-    cons = ConsequenceCurves(st, np.array([0, 1e6, 5e6, 2e7]), np.zeros(4), np.array([0.0, 2.0, 12.0, 60.0]),
-                             np.array([0.0, 0.5, 1.0, 2.0]))
+    cons = ConsequenceCurves(
+        st, np.array([0, 1e6, 5e6, 2e7]), np.zeros(4), np.array([0.0, 2.0, 12.0, 60.0]), np.array([0.0, 0.5, 1.0, 2.0])
+    )
     params = [unc.rating_offset(0.4), unc.fragility_shift(0, "breach", 0.3)]
     if life_factor is not None:
         params.append(life_factor)
-    return ResponseChain(failure_modes=(FailureMode("breach", (FragilityCurve("normal", median=5.0, spread=0.6),)),),
-                         consequences=cons, rating=RATING, uncertain=unc.UncertainInputs(tuple(params), 1))
+    return ResponseChain(
+        failure_modes=(FailureMode("breach", (FragilityCurve("normal", median=5.0, spread=0.6),)),),
+        consequences=cons,
+        rating=RATING,
+        uncertain=unc.UncertainInputs(tuple(params), 1),
+    )
 
 
 def _ensemble(rng, R):
     # a posterior-like sample of zero-skew LP3 (log-normal) curves
-    return HazardEnsemble(family="lp3", weights=np.full(R, 1.0 / R),
-                          params={"mean": rng.normal(2.6, 0.15, R), "sd": rng.uniform(0.2, 0.4, R),
-                                  "skew": np.zeros(R)})
+    return HazardEnsemble(
+        family="lp3",
+        weights=np.full(R, 1.0 / R),
+        params={"mean": rng.normal(2.6, 0.15, R), "sd": rng.uniform(0.2, 0.4, R), "skew": np.zeros(R)},
+    )
 
 
 def test_clustered_standard_error_matches_the_spread_of_independent_reruns():
@@ -93,10 +100,14 @@ def test_area_under_the_predictive_fn_curve_is_the_incremental_all():
 def test_run_fn_carries_the_response_uncertainty(scenario_factory):
     # with knowledge uncertainty in the response the predictive F-N is the mean of the per-draw curves, not the
     # nominal-response curve; its first level is the smallest incremental life loss that occurs (below 1 here)
-    path = scenario_factory(folder="fnunc", toml_extra="[uncertainty]\ndraws_per_realization = 2\n"
-                                                         "[grid]\npoints = 200\n")
-    path.write_text(path.read_text().replace('[rating]\ntable = "rating.csv"\n',
-                                             '[rating]\ntable = "rating.csv"\nknowledge_sd = 0.3\n'))
+    path = scenario_factory(
+        folder="fnunc", toml_extra="[uncertainty]\ndraws_per_realization = 2\n[grid]\npoints = 200\n"
+    )
+    path.write_text(
+        path.read_text().replace(
+            '[rating]\ntable = "rating.csv"\n', '[rating]\ntable = "rating.csv"\nknowledge_sd = 0.3\n'
+        )
+    )
     res = assess(load_scenario(path))
     prop = res.propagation
     np.testing.assert_allclose(res.fn.predictive, prop.weights @ prop.fn_per_draw, rtol=1e-12)
@@ -110,8 +121,10 @@ def test_series_bounds_and_common_cause_adjustment_by_hand():
     # independent P_f = 1 - 0.8 x 0.7 = 0.44; series bounds max = 0.3 and min(1, 0.5) = 0.5 (Ang & Tang 1984,
     # section 6.2); proportional adjustment P_i P_f / (P1 + P2): 0.176 and 0.264, which add up to 0.44
     st = np.array([0.0, 10.0])
-    fms = (FailureMode("a", (FragilityCurve("table", stage=st, probability=np.array([0.2, 0.2])),)),
-           FailureMode("b", (FragilityCurve("table", stage=st, probability=np.array([0.3, 0.3])),)))
+    fms = (
+        FailureMode("a", (FragilityCurve("table", stage=st, probability=np.array([0.2, 0.2])),)),
+        FailureMode("b", (FragilityCurve("table", stage=st, probability=np.array([0.3, 0.3])),)),
+    )
     z = np.zeros(2)
     chain = ResponseChain(failure_modes=fms, consequences=ConsequenceCurves(st, z, z, z, z))
     G = chain.integrands(np.array([5.0]))[0]
@@ -128,7 +141,7 @@ def test_autocorrelation_time_of_an_ar1_chain():
     phi, n = 0.8, 100_000
     e = rng.standard_normal((4, n))
     x = np.empty((4, n))
-    x[:, 0] = e[:, 0] / np.sqrt(1 - phi ** 2)
+    x[:, 0] = e[:, 0] / np.sqrt(1 - phi**2)
     for t in range(1, n):
         x[:, t] = phi * x[:, t - 1] + e[:, t]
     assert integrated_autocorrelation_time(list(x)) == pytest.approx((1 + phi) / (1 - phi), rel=0.1)
@@ -166,15 +179,17 @@ def test_crest_stage_check_reads_the_real_crest(scenario_factory):
     p_direct = sc.ensemble.weights @ sc.ensemble.aep(np.array([q]))[:, 0]
     assert c.aep_predictive == pytest.approx(p_direct, rel=1e-9)
     members = sc.ensemble.aep(np.array([q]))[:, 0]
-    assert c.chance_in_years_predictive == pytest.approx(sc.ensemble.weights @ chance_in_years(members, 50),
-                                                         rel=1e-9)
+    assert c.chance_in_years_predictive == pytest.approx(sc.ensemble.weights @ chance_in_years(members, 50), rel=1e-9)
     assert c.ratio_predictive_to_mode == pytest.approx(c.aep_predictive / c.aep_mode)
     s = res.summary()["mode_understatement"]
     assert s["crest_stage_check"]["crest_stage"] == 6.5 and "crest_check" in s
     # with natural variability of stage the crest is reached more often than the bare rating says
     path2 = scenario_factory(folder="crest2", toml_extra="[grid]\npoints = 400\n[checks]\ncrest_stage = 6.5\n")
-    path2.write_text(path2.read_text().replace('[rating]\ntable = "rating.csv"\n',
-                                               '[rating]\ntable = "rating.csv"\nnatural_sd = 0.4\n'))
+    path2.write_text(
+        path2.read_text().replace(
+            '[rating]\ntable = "rating.csv"\n', '[rating]\ntable = "rating.csv"\nnatural_sd = 0.4\n'
+        )
+    )
     res2 = assess(load_scenario(path2))
     assert res2.crest_stage.aep_predictive > c.aep_predictive
     # the per-realization AEPs (used for the n-year chance) average to the predictive AEP

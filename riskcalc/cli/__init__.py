@@ -43,10 +43,13 @@ def help_text(doc) -> str:
     return escape_brackets("\n\n".join(paragraphs))
 
 
-app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
-                  rich_markup_mode="rich",
-                  help=help_text("Flood, dam and levee risk from an ensemble of frequency curves.\n\n"
-                                 f"Caution: {CAUTION_SHORT}"))
+app = typer.Typer(
+    add_completion=False,
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+    rich_markup_mode="rich",
+    help=help_text(f"Flood, dam and levee risk from an ensemble of frequency curves.\n\nCaution: {CAUTION_SHORT}"),
+)
 
 
 def _version(value: bool):
@@ -56,8 +59,11 @@ def _version(value: bool):
 
 
 @app.callback()
-def _root(version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
-                                       help="Print the version and exit.")):
+def _root(
+    version: bool = typer.Option(
+        False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
+    ),
+):
     pass
 
 

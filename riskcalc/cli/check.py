@@ -20,6 +20,8 @@ def check(scenario: Path = typer.Argument(..., help="Scenario file (.toml).")):
     from ..workflows import check_scenario
 
     sc = check_scenario(scenario)
-    typer.echo(f"{scenario}: valid. {sc.ensemble.size} realizations ({sc.ensemble.family}, {sc.ensemble.quantity}), "
-               f"{len(sc.model.failure_modes)} failure mode(s): {', '.join(sc.model.failure_mode_names)}; "
-               f"{len(sc.files)} input file(s).")
+    typer.echo(
+        f"{scenario}: valid. {sc.ensemble.size} realizations ({sc.ensemble.family}, {sc.ensemble.quantity}), "
+        f"{len(sc.model.failure_modes)} failure mode(s): {', '.join(sc.model.failure_mode_names)}; "
+        f"{len(sc.files)} input file(s)."
+    )

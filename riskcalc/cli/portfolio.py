@@ -36,10 +36,12 @@ def portfolio(
         afp, ead, all_ = (output_label(k) for k in ("afp", "ead", "all"))
         for r in table.itertuples(index=False):
             if r.status == "ok":
-                typer.echo(f"{r.scenario:28} {afp.short} {afp.fmt(r.afp_predictive_per_yr)} "
-                           f"(mode {afp.fmt(r.afp_mode_per_yr)}, x{fmt_ratio(r.afp_ratio)})  "
-                           f"{ead.short} {ead.fmt(r.ead_predictive_per_yr)} {ead.unit_text(r.currency)}  "
-                           f"{all_.short} {all_.fmt(r.all_predictive_lives_per_yr)} {all_.unit_text()}")
+                typer.echo(
+                    f"{r.scenario:28} {afp.short} {afp.fmt(r.afp_predictive_per_yr)} "
+                    f"(mode {afp.fmt(r.afp_mode_per_yr)}, x{fmt_ratio(r.afp_ratio)})  "
+                    f"{ead.short} {ead.fmt(r.ead_predictive_per_yr)} {ead.unit_text(r.currency)}  "
+                    f"{all_.short} {all_.fmt(r.all_predictive_lives_per_yr)} {all_.unit_text()}"
+                )
             else:
                 typer.echo(f"{r.scenario:28} {r.status}: {r.error}")
         typer.echo(caution_line())

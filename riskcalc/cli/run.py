@@ -6,8 +6,18 @@ from pathlib import Path
 
 import typer
 
-from ..outputs.labels import (HEADLINE_KEYS, caution_line, fmt_aep, fmt_num, fmt_percent, fmt_quantity, fmt_ratio,
-                              fmt_return_period, output_label, unit_text)
+from ..outputs.labels import (
+    HEADLINE_KEYS,
+    caution_line,
+    fmt_aep,
+    fmt_num,
+    fmt_percent,
+    fmt_quantity,
+    fmt_ratio,
+    fmt_return_period,
+    output_label,
+    unit_text,
+)
 
 
 def headline_lines(summary: dict) -> list[str]:
@@ -20,8 +30,10 @@ def headline_lines(summary: dict) -> list[str]:
         h = summary[o.key]
         e = h["ensemble"]
         band = f"{o.fmt(e['p05'])} to {o.fmt(e['p95'])}"
-        lines.append(f"{o.text(cur):{w}}{o.fmt(h['predictive']):>13}{o.fmt(h['mode']):>13}"
-                     f"{o.fmt(h['median_curve']):>13}{band:>26}{fmt_ratio(h['ratio_predictive_to_mode']):>11}")
+        lines.append(
+            f"{o.text(cur):{w}}{o.fmt(h['predictive']):>13}{o.fmt(h['mode']):>13}"
+            f"{o.fmt(h['median_curve']):>13}{band:>26}{fmt_ratio(h['ratio_predictive_to_mode']):>11}"
+        )
     h = summary["annual_failure_probability"]
     r, r_h = h["ratio_predictive_to_mode"], h.get("ratio_hazard_only")
     if r_h is not None and r is not None and abs(r_h - r) > 1e-9 * abs(r):
@@ -35,7 +47,8 @@ def headline_lines(summary: dict) -> list[str]:
             f"{unit_text(summary['units'].get('stage'))}) would be exceeded with AEP {fmt_num(p)} on the predictive "
             f"curve (about once in {fmt_return_period(p)} years, not once in {fmt_return_period(c['design_aep'])}); "
             f"chance of at least one exceedance in {c['years']} years: "
-            f"{fmt_percent(m['chance_in_years_predictive'])}, not {fmt_percent(m['chance_in_years_nominal'])}.")
+            f"{fmt_percent(m['chance_in_years_predictive'])}, not {fmt_percent(m['chance_in_years_nominal'])}."
+        )
     return lines
 
 

@@ -15,8 +15,9 @@ def sensitivity(
     n: int = typer.Option(None, "--n", help="Base sample size N, a power of two (default: [sensitivity].n or 1024)."),
     seed: int = typer.Option(None, "--seed", help="Positive seed (default: [sensitivity].seed or the scenario's)."),
     second_order: bool = typer.Option(False, "--second-order", help="Also estimate second-order indices."),
-    target_width: float = typer.Option(None, "--target-width",
-                                       help="Double N until every interval half-width is below this (e.g. 0.05)."),
+    target_width: float = typer.Option(
+        None, "--target-width", help="Double N until every interval half-width is below this (e.g. 0.05)."
+    ),
     morris: bool = typer.Option(False, "--morris", help="Also run Morris screening."),
     overwrite: bool = typer.Option(False, help="Replace a non-empty output directory."),
     workers: int = typer.Option(0, help="Worker threads (0: the machine's cores, at most 4)."),
@@ -33,9 +34,17 @@ def sensitivity(
     """
     from ..workflows import sensitivity_workflow
 
-    result, report = sensitivity_workflow(scenario, out, n=n, seed=seed, second_order=second_order,
-                                          target_width=target_width, morris=morris, overwrite=overwrite,
-                                          workers=workers or None)
+    result, report = sensitivity_workflow(
+        scenario,
+        out,
+        n=n,
+        seed=seed,
+        second_order=second_order,
+        target_width=target_width,
+        morris=morris,
+        overwrite=overwrite,
+        workers=workers or None,
+    )
     cur = result.scenario.units["currency"]
     for key, r in report.sobol.items():
         typer.echo(f"{output_label(key).short} (N = {r.n}, {r.n_evaluations:,} model runs)")
@@ -45,13 +54,16 @@ def sensitivity(
         typer.echo(f"  {'factor':40}{'S1':>8}{'+/-':>8}{'ST':>8}{'+/-':>8}")
         order = sorted(range(len(r.factors)), key=lambda i: -(r.ST[i] if r.ST[i] == r.ST[i] else -1))
         for i in order:
-            typer.echo(f"  {r.factors[i][:40]:40}{fmt_ratio(r.S1[i]):>8}{fmt_ratio(r.S1_conf[i]):>8}"
-                       f"{fmt_ratio(r.ST[i]):>8}{fmt_ratio(r.ST_conf[i]):>8}")
+            typer.echo(
+                f"  {r.factors[i][:40]:40}{fmt_ratio(r.S1[i]):>8}{fmt_ratio(r.S1_conf[i]):>8}"
+                f"{fmt_ratio(r.ST[i]):>8}{fmt_ratio(r.ST_conf[i]):>8}"
+            )
     typer.echo("mean-mode gap by source (predictive - mode):")
     for row in report.gap.itertuples(index=False):
         o = output_label(row.output)
-        typer.echo(f"  {row.source:13}{o.short:>4} {o.fmt(row.gap):>12} {o.unit_text(cur):<10} ratio "
-                   f"{fmt_ratio(row.ratio)}")
+        typer.echo(
+            f"  {row.source:13}{o.short:>4} {o.fmt(row.gap):>12} {o.unit_text(cur):<10} ratio {fmt_ratio(row.ratio)}"
+        )
     for w in report.warnings:
         typer.echo(f"warning: {w}")
     typer.echo(f"results: {out}/")

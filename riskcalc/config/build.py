@@ -55,16 +55,18 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
             if r[k] < 0:
                 raise InputError(f"{r[k]} is negative; expected a standard deviation >= 0", file, key=f"rating.{k}")
         _file_name(r["table"], file, "rating.table")
-        rating, spread = read_rating_table(r["table"], discharge_unit=q_u, stage_unit=stage_u,
-                                           extrapolation=r["extrapolation"])
+        rating, spread = read_rating_table(
+            r["table"], discharge_unit=q_u, stage_unit=stage_u, extrapolation=r["extrapolation"]
+        )
         natural = spread if spread is not None else (StageSpread(sd=r["natural_sd"]) if r["natural_sd"] > 0 else None)
         offset_sd = r["knowledge_sd"]
     else:
         if rd:
             r = check_section("rating", {"table": "-", **rd}, file, "rating.")
             if rd.get("table"):
-                raise InputError("a stage hazard needs no rating table; remove [rating].table", file,
-                                 key="rating.table")
+                raise InputError(
+                    "a stage hazard needs no rating table; remove [rating].table", file, key="rating.table"
+                )
             natural = StageSpread(sd=r["natural_sd"]) if r["natural_sd"] > 0 else None
             offset_sd = r["knowledge_sd"]
         else:
@@ -80,9 +82,12 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
         if not f["name"].strip():
             raise InputError("is empty; expected a failure-mode name", file, key=key + ".name")
         if _mode_key(f["name"]) in seen:
-            raise InputError(f"failure-mode name '{f['name']}' is used twice (names are compared ignoring case and "
-                             "with spaces as '_', as in the output tables); names must be unique", file,
-                             key=key + ".name")
+            raise InputError(
+                f"failure-mode name '{f['name']}' is used twice (names are compared ignoring case and "
+                "with spaces as '_', as in the output tables); names must be unique",
+                file,
+                key=key + ".name",
+            )
         seen.add(_mode_key(f["name"]))
         if f["shift_sd"] < 0:
             raise InputError("expected a standard deviation >= 0", file, key=key + ".shift_sd")
@@ -102,14 +107,16 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
                 node = read_fragility_table(n["table"], stage_unit=stage_u, name=n["name"])
             elif n["kind"] in ("normal", "lognormal"):
                 if n["table"]:
-                    raise InputError(f"a {n['kind']} node takes median and spread, not a table", file,
-                                     key=nkey + ".table")
+                    raise InputError(
+                        f"a {n['kind']} node takes median and spread, not a table", file, key=nkey + ".table"
+                    )
                 for k in ("median", "spread"):
                     if math.isnan(n[k]):
                         raise InputError("missing required key", file, key=f"{nkey}.{k}")
                 try:
-                    node = FragilityCurve(n["kind"], name=n["name"], median=n["median"], spread=n["spread"],
-                                          datum=n["datum"])
+                    node = FragilityCurve(
+                        n["kind"], name=n["name"], median=n["median"], spread=n["spread"], datum=n["datum"]
+                    )
                 except ValueError as exc:
                     raise InputError(str(exc), file, key=nkey) from None
             else:
@@ -123,8 +130,10 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
             if hi > lo:
                 params.append(unc_.fragility_spread(i, f["name"], lo, hi))
             elif lo != 1.0:  # a range of one value: a constant factor on the spreads
-                mode = FailureMode(mode.name, tuple(dataclasses.replace(n, spread=n.spread * lo) if n.kind != "table"
-                                                    else n for n in mode.nodes))
+                mode = FailureMode(
+                    mode.name,
+                    tuple(dataclasses.replace(n, spread=n.spread * lo) if n.kind != "table" else n for n in mode.nodes),
+                )
         modes.append(mode)
     c = check_section("consequences", d.get("consequences"), file, "consequences.")
     _file_name(c["table"], file, "consequences.table")
@@ -137,5 +146,11 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
     unc = check_section("uncertainty", d.get("uncertainty", {}), file, "uncertainty.")
     if not 2 <= unc["hermite_nodes"] <= 64:
         raise InputError("expected 2 to 64 quadrature nodes", file, key="uncertainty.hermite_nodes")
-    return ResponseChain(failure_modes=tuple(modes), consequences=cons, rating=rating, natural=natural,
-                         uncertain=unc_.UncertainInputs(tuple(params), len(modes)), hermite_nodes=unc["hermite_nodes"])
+    return ResponseChain(
+        failure_modes=tuple(modes),
+        consequences=cons,
+        rating=rating,
+        natural=natural,
+        uncertain=unc_.UncertainInputs(tuple(params), len(modes)),
+        hermite_nodes=unc["hermite_nodes"],
+    )

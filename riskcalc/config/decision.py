@@ -128,15 +128,25 @@ def read_economics(raw, file) -> EconomicSettings:
         return EconomicSettings(rate=rate, period_years=period, base_year=base_year)
     fut = e["future"]
     if base_year is None:
-        raise InputError("missing required key; expected the calendar year of year 1 (a future condition needs it)",
-                         file, key="economics.base_year")
+        raise InputError(
+            "missing required key; expected the calendar year of year 1 (a future condition needs it)",
+            file,
+            key="economics.base_year",
+        )
     if fut["year"] <= base_year:
-        raise InputError(f"{fut['year']} is not after economics.base_year = {base_year}", file,
-                         key="economics.future.year")
+        raise InputError(
+            f"{fut['year']} is not after economics.base_year = {base_year}", file, key="economics.future.year"
+        )
     override = {k: fut[k] for k in FUTURE_OVERRIDES if k in fut}
-    return EconomicSettings(rate=rate, period_years=period, base_year=base_year, future_year=fut["year"],
-                            future=_resolve_paths(override, file.parent), damage_factor=fut["damage_factor"],
-                            life_loss_factor=fut["life_loss_factor"])
+    return EconomicSettings(
+        rate=rate,
+        period_years=period,
+        base_year=base_year,
+        future_year=fut["year"],
+        future=_resolve_paths(override, file.parent),
+        damage_factor=fut["damage_factor"],
+        life_loss_factor=fut["life_loss_factor"],
+    )
 
 
 def read_alternatives(raw, file, base_uncertainty: dict) -> tuple:
@@ -164,28 +174,44 @@ def read_alternatives(raw, file, base_uncertainty: dict) -> tuple:
         key = f"alternatives[{i}]"
         for k in a if isinstance(a, dict) else ():
             if k in SHARED:
-                raise InputError(f"an alternative shares the base's {k}; it may override only "
-                                 f"{', '.join(OVERRIDES)} (a changed hazard belongs in [economics.future])",
-                                 file, key=f"{key}.{k}")
+                raise InputError(
+                    f"an alternative shares the base's {k}; it may override only "
+                    f"{', '.join(OVERRIDES)} (a changed hazard belongs in [economics.future])",
+                    file,
+                    key=f"{key}.{k}",
+                )
         v = validate("alternative", a, file, key + ".")
         name = v["name"].strip()
         if name in seen or name == BASE_NAME:
-            raise InputError(f"the name '{name}' is used twice (or is the base's); names must be unique", file,
-                             key=f"{key}.name")
+            raise InputError(
+                f"the name '{name}' is used twice (or is the base's); names must be unique", file, key=f"{key}.name"
+            )
         seen.add(name)
         if v["first_cost"] == 0 and v["annual_om"] == 0:
-            raise InputError("the alternative costs nothing; expected first_cost or annual_om above 0", file,
-                             key=f"{key}.first_cost")
+            raise InputError(
+                "the alternative costs nothing; expected first_cost or annual_om above 0", file, key=f"{key}.first_cost"
+            )
         for k in ("draws_per_realization", "workers"):
             uo = v.get("uncertainty", {})
             if k in uo and uo[k] != base_uncertainty.get(k):
-                raise InputError(f"alternatives share the base's Monte Carlo draws; set uncertainty.{k} in the "
-                                 "base scenario", file, key=f"{key}.uncertainty.{k}")
+                raise InputError(
+                    f"alternatives share the base's Monte Carlo draws; set uncertainty.{k} in the base scenario",
+                    file,
+                    key=f"{key}.uncertainty.{k}",
+                )
         override = {k: v[k] for k in OVERRIDES if k in v}
-        out.append(Alternative(name=name, description=v["description"], first_cost=v["first_cost"],
-                               annual_om=v["annual_om"], construction_months=v["construction_months"],
-                               override=_resolve_paths(override, file.parent),
-                               future_override=_resolve_paths(v["future"], file.parent), index=i))
+        out.append(
+            Alternative(
+                name=name,
+                description=v["description"],
+                first_cost=v["first_cost"],
+                annual_om=v["annual_om"],
+                construction_months=v["construction_months"],
+                override=_resolve_paths(override, file.parent),
+                future_override=_resolve_paths(v["future"], file.parent),
+                index=i,
+            )
+        )
     return tuple(out)
 
 
@@ -239,8 +265,11 @@ def build_plan_model(raw: dict, file, units: dict, variable: str, draws: int, ov
             raise
         raise InputError(exc.detail, exc.file, key=_key(prefix, exc.key), row=exc.row, column=exc.column) from None
     if unc["draws_per_realization"] != draws:
-        raise InputError("alternatives share the base's Monte Carlo draws; set it in the base scenario", file,
-                         key=_key(prefix, "uncertainty.draws_per_realization"))
+        raise InputError(
+            "alternatives share the base's Monte Carlo draws; set it in the base scenario",
+            file,
+            key=_key(prefix, "uncertainty.draws_per_realization"),
+        )
     return model
 
 
@@ -271,12 +300,18 @@ def read_future_hazard(raw_hazard: dict, override, file, units: dict, base_ensem
         raise InputError("the future hazard must give the same variable as the base", file, key=prefix + "variable")
     ens = read_hazard_ensemble(hz, family, file, units, prefix)
     if ens.size != base_ensemble.size:
-        raise InputError(f"the future ensemble has {ens.size} realizations but the base has {base_ensemble.size}; "
-                         "row r of the future ensemble must be the future of realization r", file,
-                         key=prefix + "ensemble")
+        raise InputError(
+            f"the future ensemble has {ens.size} realizations but the base has {base_ensemble.size}; "
+            "row r of the future ensemble must be the future of realization r",
+            file,
+            key=prefix + "ensemble",
+        )
     if not np.allclose(ens.weights, base_ensemble.weights, rtol=1e-9, atol=0):
-        raise InputError("the future ensemble's weights differ from the base's; realizations must pair", file,
-                         key=prefix + "ensemble")
+        raise InputError(
+            "the future ensemble's weights differ from the base's; realizations must pair",
+            file,
+            key=prefix + "ensemble",
+        )
     if "mode" not in override:
         mode = dict(base_mode) if family == base_ensemble.family else {}
     return ens, mode
@@ -296,8 +331,15 @@ def check_plans(raw: dict, file, units: dict, ensemble, mode_params: dict, draws
     read_future_hazard(raw["hazard"], economics.future.get("hazard"), file, units, ensemble, mode_params)
     build_plan_model(raw, file, units, variable, draws, [economics.future], "economics.future")
     for a in alternatives:
-        build_plan_model(raw, file, units, variable, draws, [a.override, economics.future, a.future_override],
-                         f"alternatives[{a.index}].future")
+        build_plan_model(
+            raw,
+            file,
+            units,
+            variable,
+            draws,
+            [a.override, economics.future, a.future_override],
+            f"alternatives[{a.index}].future",
+        )
 
 
 def parse_economics(scenario) -> EconomicSettings:

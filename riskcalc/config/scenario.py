@@ -92,8 +92,11 @@ def read_scenario_dict(path, _chain=()) -> tuple[dict, list[Path]]:
     """
     path = Path(path).resolve()
     if path in _chain:
-        raise InputError("the scenario includes itself through 'base' (" +
-                         " -> ".join(p.name for p in (*_chain, path)) + ")", path, key="base")
+        raise InputError(
+            "the scenario includes itself through 'base' (" + " -> ".join(p.name for p in (*_chain, path)) + ")",
+            path,
+            key="base",
+        )
     d = _read_toml(path)
     _absolutize(d, path.parent)
     files = [path]
@@ -204,8 +207,7 @@ def read_units(d, file) -> dict:
     """The ``[units]`` section, the currency in lower case."""
     units = validate("units", d, file, "units.")
     if not units["currency"].isalpha():
-        raise InputError(f"'{units['currency']}' is not a currency code such as usd or eur", file,
-                         key="units.currency")
+        raise InputError(f"'{units['currency']}' is not a currency code such as usd or eur", file, key="units.currency")
     units["currency"] = units["currency"].lower()
     return units
 
@@ -225,8 +227,11 @@ def read_hazard(d, file, prefix: str = "hazard.") -> tuple:
     hz = validate("hazard", d, file, prefix)
     family = hz["family"].strip().lower()
     if family != "table" and family not in FAMILIES:
-        raise InputError(f"unknown family '{hz['family']}'; expected one of {', '.join(FAMILIES)} or table", file,
-                         key=prefix + "family")
+        raise InputError(
+            f"unknown family '{hz['family']}'; expected one of {', '.join(FAMILIES)} or table",
+            file,
+            key=prefix + "family",
+        )
     mode = hz["mode"]
     if mode:
         if family == "table":
@@ -250,8 +255,11 @@ def read_hazard_ensemble(hz: dict, family: str, file, units: dict, prefix: str =
     unit = units["discharge"] if hz["variable"] == "discharge" else units["stage"]
     ens = read_ensemble(hz["ensemble"], family, quantity=hz["variable"], unit=unit)
     if family == "table" and ens.quantity != hz["variable"]:
-        raise InputError(f"the curve table gives {ens.quantity} but hazard.variable is {hz['variable']}", file,
-                         key=prefix + "variable")
+        raise InputError(
+            f"the curve table gives {ens.quantity} but hazard.variable is {hz['variable']}",
+            file,
+            key=prefix + "variable",
+        )
     return ens
 
 
@@ -286,8 +294,11 @@ def load_scenario(path) -> Scenario:
     unc = validate("uncertainty", top["uncertainty"], path, "uncertainty.")
     checks = validate("checks", top["checks"], path, "checks.")
     if not grid["aep_min"] <= checks["design_aep"] <= grid["aep_max"]:
-        raise InputError(f"{checks['design_aep']} is outside the grid's AEP range [{grid['aep_min']}, "
-                         f"{grid['aep_max']}]", path, key="checks.design_aep")
+        raise InputError(
+            f"{checks['design_aep']} is outside the grid's AEP range [{grid['aep_min']}, {grid['aep_max']}]",
+            path,
+            key="checks.design_aep",
+        )
     outputs = validate("outputs", top["outputs"], path, "outputs.")
     sensitivity = read_settings(top["sensitivity"], path, default_seed=top["seed"])
     guidelines = read_guidelines(top["guidelines"], path) if top["guidelines"] else None
@@ -310,8 +321,26 @@ def load_scenario(path) -> Scenario:
     inputs.append(Path(model.consequences.source))
     inputs += _table_paths(top["alternatives"]) + _table_paths(top["economics"])
     all_files = tuple(dict.fromkeys([*files, *inputs]))
-    return Scenario(path=path, title=top["title"], description=top["description"], seed=top["seed"], units=units,
-                    ensemble=ens, mode_params=mode, model=model, credible_level=hz["credible_level"], grid=grid,
-                    uncertainty=unc, checks=checks, outputs=outputs, guidelines=guidelines, sensitivity=sensitivity,
-                    alternatives=alternatives, economics=economics, structure=top["structure"], files=all_files, raw=d,
-                    file_hashes=_hashes(all_files, path))
+    return Scenario(
+        path=path,
+        title=top["title"],
+        description=top["description"],
+        seed=top["seed"],
+        units=units,
+        ensemble=ens,
+        mode_params=mode,
+        model=model,
+        credible_level=hz["credible_level"],
+        grid=grid,
+        uncertainty=unc,
+        checks=checks,
+        outputs=outputs,
+        guidelines=guidelines,
+        sensitivity=sensitivity,
+        alternatives=alternatives,
+        economics=economics,
+        structure=top["structure"],
+        files=all_files,
+        raw=d,
+        file_hashes=_hashes(all_files, path),
+    )

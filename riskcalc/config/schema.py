@@ -123,8 +123,12 @@ _NAMES = Field(str, nonblank=True, expect="a factor name")
 SCHEMA: dict[str, dict[str, Field]] = {
     "": {
         "title": Field(str, "untitled scenario"),
-        "structure": Field(str, "unspecified", choices=("dam", "levee", "unspecified"),
-                           expect="dam, levee or unspecified (chooses the default reference lines)"),
+        "structure": Field(
+            str,
+            "unspecified",
+            choices=("dam", "levee", "unspecified"),
+            expect="dam, levee or unspecified (chooses the default reference lines)",
+        ),
         "description": Field(str, ""),
         "seed": Field(int, 20240601, low=0, expect="an integer >= 0"),
         "base": Field(str, "", expect="the file name of another scenario"),
@@ -132,8 +136,9 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "hazard": Field(dict, REQUIRED, table="hazard"),
         "grid": Field(dict, {}, table="grid"),
         "rating": Field(dict, {}, table="rating"),
-        "failure_modes": Field(list, REQUIRED, table="failure_mode", min_items=1,
-                               expect="at least one [[failure_modes]] entry"),
+        "failure_modes": Field(
+            list, REQUIRED, table="failure_mode", min_items=1, expect="at least one [[failure_modes]] entry"
+        ),
         "consequences": Field(dict, REQUIRED, table="consequences"),
         "uncertainty": Field(dict, {}, table="uncertainty"),
         "checks": Field(dict, {}, table="checks"),
@@ -170,10 +175,10 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "failure_mode": {
         "name": Field(str, REQUIRED, expect="a failure-mode name"),
         "shift_sd": Field(float, 0.0, low=0, expect=_SD),
-        "spread_range": Field(list, [], items=Field(float, expect="a spread factor"),
-                              expect="[low, high] with 0 < low <= high"),
-        "nodes": Field(list, REQUIRED, table="node", min_items=1,
-                       expect="at least one [[failure_modes.nodes]] entry"),
+        "spread_range": Field(
+            list, [], items=Field(float, expect="a spread factor"), expect="[low, high] with 0 < low <= high"
+        ),
+        "nodes": Field(list, REQUIRED, table="node", min_items=1, expect="at least one [[failure_modes.nodes]] entry"),
     },
     "node": {
         "name": Field(str, "node"),
@@ -204,7 +209,9 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "checks": {
         "design_aep": Field(float, 0.01, low=0, high=1, low_open=True, high_open=True, expect=_PROB),
         "years": Field(int, 50, low=1, expect="a number of years >= 1"),
-        "crest_stage": Field(float, None, expect="the stage of the crest or top of levee, in the scenario's stage unit"),
+        "crest_stage": Field(
+            float, None, expect="the stage of the crest or top of levee, in the scenario's stage unit"
+        ),
     },
     "outputs": {
         "figures": Field(bool, True),
@@ -216,15 +223,26 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "n": Field(int, 1024, low=16, pow2=True, expect="a power of two >= 16, e.g. 1024"),
         "seed": Field(int, None, low=1, expect="an integer >= 1"),  # default: the scenario's seed
         "second_order": Field(bool, False),
-        "target_width": Field(float, None, low=0, high=1, low_open=True, high_open=True,
-                              expect="a confidence half-width in (0, 1), e.g. 0.05"),
+        "target_width": Field(
+            float,
+            None,
+            low=0,
+            high=1,
+            low_open=True,
+            high_open=True,
+            expect="a confidence half-width in (0, 1), e.g. 0.05",
+        ),
         "n_max": Field(int, None, low=16, pow2=True, expect="a power of two >= n"),  # default: max(16384, n)
         "n_resamples": Field(int, 100, low=10, high=10_000, expect="an integer from 10 to 10000"),
-        "conf_level": Field(float, 0.95, low=0, high=1, low_open=True, high_open=True,
-                            expect="a level in (0, 1), e.g. 0.95"),
-        "groups": Field(dict, {}, values=Field(list, items=_NAMES, min_items=1,
-                                               expect="a non-empty list of factor names"),
-                        expect="a table of group = [factor names]"),
+        "conf_level": Field(
+            float, 0.95, low=0, high=1, low_open=True, high_open=True, expect="a level in (0, 1), e.g. 0.95"
+        ),
+        "groups": Field(
+            dict,
+            {},
+            values=Field(list, items=_NAMES, min_items=1, expect="a non-empty list of factor names"),
+            expect="a table of group = [factor names]",
+        ),
         "include": Field(list, [], items=_NAMES, expect="a list of factor names"),
         "exclude": Field(list, [], items=_NAMES, expect="a list of factor names"),
         "morris": Field(bool, False),
@@ -236,44 +254,59 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "guidelines": {
         "name": Field(str, "custom", nonblank=True, expect="a non-empty text (the set's title)"),
         "source": Field(str, "user configuration", nonblank=True, expect="a non-empty text (the set's citation)"),
-        "include": Field(list, [], items=Field(str, choices=tuple(DEFAULT_GUIDELINES)), index_base=0,
-                         one_or_many=True, expect="a list of default set names"),
-        "fn_lines": Field(list, [], table="fn_line", index_base=0,
-                          expect="a list of tables (TOML [[...]] array of tables)"),
-        "life_loss_lines": Field(list, [], table="life_loss_line", index_base=0,
-                                 expect="a list of tables (TOML [[...]] array of tables)"),
-        "probability_lines": Field(list, [], table="probability_line", index_base=0,
-                                   expect="a list of tables (TOML [[...]] array of tables)"),
+        "include": Field(
+            list,
+            [],
+            items=Field(str, choices=tuple(DEFAULT_GUIDELINES)),
+            index_base=0,
+            one_or_many=True,
+            expect="a list of default set names",
+        ),
+        "fn_lines": Field(
+            list, [], table="fn_line", index_base=0, expect="a list of tables (TOML [[...]] array of tables)"
+        ),
+        "life_loss_lines": Field(
+            list, [], table="life_loss_line", index_base=0, expect="a list of tables (TOML [[...]] array of tables)"
+        ),
+        "probability_lines": Field(
+            list, [], table="probability_line", index_base=0, expect="a list of tables (TOML [[...]] array of tables)"
+        ),
     },
     "fn_line": {
         "name": Field(str, REQUIRED, nonblank=True, expect="a non-empty text (the line's label)"),
         "source": Field(str, REQUIRED, nonblank=True, expect="the citation of the policy that sets the line"),
         "anchor_n": Field(float, REQUIRED, low=0, low_open=True, expect="a positive number of lives"),
-        "anchor_f": Field(float, REQUIRED, low=0, high=1, low_open=True,
-                          expect="a positive annual probability, at most 1"),
+        "anchor_f": Field(
+            float, REQUIRED, low=0, high=1, low_open=True, expect="a positive annual probability, at most 1"
+        ),
         "slope": Field(float, -1.0, high=0, expect="a number <= 0 (a falling line)"),
         "n_min": Field(float, 1.0, low=0, low_open=True, expect="a positive number of lives"),
-        "n_max": Field(float, math.inf, low=0, low_open=True, allow_inf=True,
-                       expect="a positive number of lives (or inf)"),
+        "n_max": Field(
+            float, math.inf, low=0, low_open=True, allow_inf=True, expect="a positive number of lives (or inf)"
+        ),
     },
     "life_loss_line": {
         "name": Field(str, REQUIRED, nonblank=True, expect="a non-empty text (the line's label)"),
         "source": Field(str, REQUIRED, nonblank=True, expect="the citation of the policy that sets the line"),
         "value": Field(float, REQUIRED, low=0, low_open=True, expect="a positive annualized life loss [lives/yr]"),
         "n_min": Field(float, 0.0, low=0, expect="a number of lives >= 0"),
-        "n_max": Field(float, math.inf, low=0, low_open=True, allow_inf=True,
-                       expect="a positive number of lives (or inf)"),
+        "n_max": Field(
+            float, math.inf, low=0, low_open=True, allow_inf=True, expect="a positive number of lives (or inf)"
+        ),
     },
     "probability_line": {
         "name": Field(str, REQUIRED, nonblank=True, expect="a non-empty text (the line's label)"),
         "source": Field(str, REQUIRED, nonblank=True, expect="the citation of the policy that sets the line"),
-        "value": Field(float, REQUIRED, low=0, high=1, low_open=True, expect="a positive annual probability, at most 1"),
+        "value": Field(
+            float, REQUIRED, low=0, high=1, low_open=True, expect="a positive annual probability, at most 1"
+        ),
         "measure": Field(str, "annual_failure_probability", choices=MEASURES),
     },
     # -- [economics] and [[alternatives]] ------------------------------------------------------------
     "economics": {
-        "rate": Field(float, REQUIRED, low=0, high=1, high_open=True,
-                      expect="the discount rate as a fraction, e.g. 0.03"),
+        "rate": Field(
+            float, REQUIRED, low=0, high=1, high_open=True, expect="the discount rate as a fraction, e.g. 0.03"
+        ),
         "period_years": Field(int, 50, low=1, expect="a period of analysis in years >= 1"),
         "base_year": Field(int, None, low=0, expect="the calendar year of the first year of the period"),
         "future": Field(dict, OMIT, table="economics_future"),
@@ -343,8 +376,9 @@ def validate(section: str, d, file, prefix: str = "", *, deep: bool = True) -> d
     """
     spec = SCHEMA[section]
     if not isinstance(d, dict):
-        raise InputError(f"expected a table of settings, got {_describe(d)}"[:160], file,
-                         key=prefix.rstrip(".") or section or None)
+        raise InputError(
+            f"expected a table of settings, got {_describe(d)}"[:160], file, key=prefix.rstrip(".") or section or None
+        )
     for k in d:
         if k not in spec:
             raise InputError(f"unknown key; expected one of {', '.join(sorted(spec))}", file, key=prefix + str(k))
@@ -353,8 +387,9 @@ def validate(section: str, d, file, prefix: str = "", *, deep: bool = True) -> d
         v = d.get(k)
         if k not in d or (v is None and f.default is None):
             if f.default is REQUIRED:
-                raise InputError("missing required key" + (f"; expected {f.expect}" if f.expect else ""), file,
-                                 key=prefix + k)
+                raise InputError(
+                    "missing required key" + (f"; expected {f.expect}" if f.expect else ""), file, key=prefix + k
+                )
             if f.default is not OMIT:
                 out[k] = copy.deepcopy(f.default)
             continue
@@ -388,8 +423,11 @@ def check_value(f: Field, v, file, key: str, *, deep: bool = True):
     if f.type is str and f.nonblank and not v.strip():
         raise InputError("is empty" + (f"; expected {f.expect}" if f.expect else ""), file, key=key)
     if f.choices and v not in f.choices:
-        raise InputError(f"{_show(v)} is not {_alternatives(f.choices)}" + (f"; expected {f.expect}" if f.expect else ""),
-                         file, key=key)
+        raise InputError(
+            f"{_show(v)} is not {_alternatives(f.choices)}" + (f"; expected {f.expect}" if f.expect else ""),
+            file,
+            key=key,
+        )
     wrong = _out_of_range(f, v)
     if wrong:
         raise InputError(f"{_show(v)} {wrong}" + (f"; expected {f.expect}" if f.expect else ""), file, key=key)
@@ -426,8 +464,7 @@ def _out_of_range(f: Field, v) -> str:
         if f.low is not None and f.high is not None:
             if f.type is int and not f.low_open and not f.high_open:
                 return f"is outside {_num(f.low)} to {_num(f.high)}"
-            return (f"is outside {'(' if f.low_open else '['}{_num(f.low)}, {_num(f.high)}"
-                    f"{')' if f.high_open else ']'}")
+            return f"is outside {'(' if f.low_open else '['}{_num(f.low)}, {_num(f.high)}{')' if f.high_open else ']'}"
         if lo_bad:
             if f.low_open:
                 return f"is not above {_num(f.low)}"
@@ -454,8 +491,14 @@ def _alternatives(choices) -> str:
 
 
 def _typename(t):
-    return {str: "text", int: "an integer", float: "a number", bool: "true or false", dict: "a table",
-            list: "a list"}.get(t, getattr(t, "__name__", str(t)))
+    return {
+        str: "text",
+        int: "an integer",
+        float: "a number",
+        bool: "true or false",
+        dict: "a table",
+        list: "a list",
+    }.get(t, getattr(t, "__name__", str(t)))
 
 
 def _describe(v) -> str:

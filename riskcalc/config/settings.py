@@ -102,8 +102,11 @@ def read_settings(raw, file=None, *, default_seed: int = 1, factors=None, overri
     for g, members in vals["groups"].items():
         for m in members:
             if m in seen:
-                raise InputError(f"factor '{m}' is already in group '{seen[m]}'; a factor belongs to one group",
-                                 file, key=f"{keys['groups']}.{g}")
+                raise InputError(
+                    f"factor '{m}' is already in group '{seen[m]}'; a factor belongs to one group",
+                    file,
+                    key=f"{keys['groups']}.{g}",
+                )
             seen[m] = g
     vals["groups"] = tuple((g, tuple(m)) for g, m in vals["groups"].items())
     vals["include"], vals["exclude"] = tuple(vals["include"]), tuple(vals["exclude"])

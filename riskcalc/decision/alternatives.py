@@ -48,6 +48,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from typing import Any
 from dataclasses import dataclass, field
 import numpy as np
 from . import economics as ec
@@ -90,8 +91,15 @@ def plan_model(scenario, overrides=(), prefix="", damage_factor=1.0, life_loss_f
     """
     from ..config.decision import build_plan_model
 
-    model = build_plan_model(scenario.raw, scenario.path, scenario.units, scenario.ensemble.quantity,
-                             scenario.uncertainty["draws_per_realization"], overrides, prefix)
+    model = build_plan_model(
+        scenario.raw,
+        scenario.path,
+        scenario.units,
+        scenario.ensemble.quantity,
+        scenario.uncertainty["draws_per_realization"],
+        overrides,
+        prefix,
+    )
     if damage_factor != 1.0 or life_loss_factor != 1.0:
         model = dataclasses.replace(model, consequences=model.consequences.scaled(damage_factor, life_loss_factor))
     return model
@@ -101,8 +109,14 @@ def _future_ensemble(scenario, settings):
     """The future-year hazard ensemble and mode parameters (the base's when the future keeps the hazard)."""
     from ..config.decision import read_future_hazard
 
-    return read_future_hazard(scenario.raw["hazard"], settings.future.get("hazard"), scenario.path, scenario.units,
-                              scenario.ensemble, scenario.mode_params)
+    return read_future_hazard(
+        scenario.raw["hazard"],
+        settings.future.get("hazard"),
+        scenario.path,
+        scenario.units,
+        scenario.ensemble,
+        scenario.mode_params,
+    )
 
 
 def sampling_signature(chain) -> tuple:
@@ -194,9 +208,18 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
     for year, ms in models.items():
         ens = ensembles[year][0]
         for plan, m in ms.items():
-            prop = propagate(ens, m, grids[year], seed=scenario.seed, draws_per_realization=k, rule=rule,
-                             log_spacing=log_spacing, workers=workers,
-                             chunk_rows=rows, fn_levels=levels[year])
+            prop = propagate(
+                ens,
+                m,
+                grids[year],
+                seed=scenario.seed,
+                draws_per_realization=k,
+                rule=rule,
+                log_spacing=log_spacing,
+                workers=workers,
+                chunk_rows=rows,
+                fn_levels=levels[year],
+            )
             chunks.add(prop.n_chunks)
             rep = k // prop.draws_per_realization
             vals = {n: np.repeat(prop.column(n), rep) for n in MEASURES}
@@ -204,23 +227,32 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
             if weights is None:
                 weights, realization = w, np.repeat(prop.realization, rep)
             mode_vals = dict(zip(prop.names, prop.on_measure(modes[year])))
-            risks.setdefault(plan, []).append(PlanRisk(plan=plan, year=year, values=vals,
-                                                       mode={n: float(mode_vals[n]) for n in MEASURES},
-                                                       signature=sampling_signature(m),
-                                                       knowledge=m.has_knowledge_uncertainty,
-                                                       fn=_plan_fn(m, prop, levels[year], modes[year], rep, k)))
+            risks.setdefault(plan, []).append(
+                PlanRisk(
+                    plan=plan,
+                    year=year,
+                    values=vals,
+                    mode={n: float(mode_vals[n]) for n in MEASURES},
+                    signature=sampling_signature(m),
+                    knowledge=m.has_knowledge_uncertainty,
+                    fn=_plan_fn(m, prop, levels[year], modes[year], rep, k),
+                )
+            )
     if len(chunks) != 1:  # the chunking rule of propagate changed: pairing of response draws is not guaranteed
         raise RuntimeError(f"plans were propagated in different chunkings {sorted(chunks)}; cannot pair draws")
-    return {"risks": risks, "weights": weights, "realization": realization, "draws_per_realization": k,
-            "grids": grids}
+    return {"risks": risks, "weights": weights, "realization": realization, "draws_per_realization": k, "grids": grids}
 
 
 def _plan_fn(chain, prop, levels, mode_masses, rep, k) -> dict:
     """F-N curves of one plan in one year: predictive and mode (nominal response) and one per draw."""
     fn_matrix = chain.on(prop.points).fn_integrand(levels)[0]
-    out = {"levels": levels, "predictive": prop.point_masses_predictive @ fn_matrix,
-           "mode": point_masses(mode_masses, prop.rule) @ fn_matrix, "draws": None,
-           "basis": "the per-draw F-N curves were not kept (too many realizations × levels)"}
+    out = {
+        "levels": levels,
+        "predictive": prop.point_masses_predictive @ fn_matrix,
+        "mode": point_masses(mode_masses, prop.rule) @ fn_matrix,
+        "draws": None,
+        "basis": "the per-draw F-N curves were not kept (too many realizations × levels)",
+    }
     fpd = getattr(prop, "fn_per_draw", None)
     if fpd is not None:
         out.update(draws=np.repeat(np.asarray(fpd, float), rep, axis=0), basis="the F-N curve of every draw")
@@ -261,7 +293,7 @@ class Comparison:
         ``{year: (Q,)}``, the grid shared by every plan in that year.
     """
 
-    scenario: object
+    scenario: Any
     settings: EconomicSettings
     alternatives: tuple
     weights: np.ndarray
@@ -281,16 +313,16 @@ def _annualize(series, settings):
     """Equivalent annual value of values at the condition years: (..., Y) -> (...)."""
     if settings.future_year is None:
         return np.asarray(series)[..., 0]
-    return ec.annualize_time_varying(series, settings.rate, settings.period_years, years=list(settings.years),
-                                     base_year=settings.base_year)
+    return ec.annualize_time_varying(
+        series, settings.rate, settings.period_years, years=list(settings.years), base_year=settings.base_year
+    )
 
 
 def _period_mean(series, settings):
     """Undiscounted mean over the period of values at the condition years: (..., Y) -> (...)."""
     if settings.future_year is None:
         return np.asarray(series)[..., 0]
-    return ec.undiscounted_mean(series, settings.period_years, years=list(settings.years),
-                                base_year=settings.base_year)
+    return ec.undiscounted_mean(series, settings.period_years, years=list(settings.years), base_year=settings.base_year)
 
 
 def _guideline_lines(scenario):
@@ -319,13 +351,22 @@ def _fn_point(afp, all_incremental, lines):
         if ln.kind == "fn_limit" or (ln.kind == "probability" and not ln.on_chart):
             continue
         ratio, _, limit = (float(np.asarray(x)) for x in point_ratios(ln, afp, all_incremental))
-        checks.append({"line": ln.name, "source": ln.source, "limit_per_yr": limit, "ratio": ratio,
-                       "exceeds": bool(ratio > 1), "position": position(ratio)})
+        checks.append(
+            {
+                "line": ln.name,
+                "source": ln.source,
+                "limit_per_yr": limit,
+                "ratio": ratio,
+                "exceeds": bool(ratio > 1),
+                "position": position(ratio),
+            }
+        )
     return {"afp_per_yr": float(afp), "n_lives": float(n), "checks": checks}
 
 
-def condition_year_figures(risk: PlanRisk, weights, lines, base: PlanRisk | None = None,
-                           condition: str = "base year") -> dict:
+def condition_year_figures(
+    risk: PlanRisk, weights, lines, base: PlanRisk | None = None, condition: str = "base year"
+) -> dict:
     """The risk of one plan in one condition year, not discounted, against the reference lines.
 
     Parameters
@@ -357,16 +398,26 @@ def condition_year_figures(risk: PlanRisk, weights, lines, base: PlanRisk | None
     pred = {n: float(w @ v[n]) for n in MEASURES}
     fn = risk.fn or {}
     levels = fn.get("levels")
-    checks = line_checks(lines, levels, Figures(pred["afp"], pred["all_incremental"], fn.get("predictive")),
-                         Figures(mo["afp"], mo["all_incremental"], fn.get("mode")),
-                         Figures(v["afp"], v["all_incremental"], fn.get("draws")), w, fn_basis=fn.get("basis", ""))
-    out = {"year": risk.year, "condition": condition,
-           "afp_per_yr": {"predictive": pred["afp"], "mode": mo["afp"], "ensemble": _stats(v["afp"], w)},
-           "ead_per_yr": {"predictive": pred["ead"], "mode": mo["ead"]},
-           "all_lives_per_yr": {"predictive": pred["all"], "mode": mo["all"], "ensemble": _stats(v["all"], w)},
-           "all_incremental_lives_per_yr": {"predictive": pred["all_incremental"], "mode": mo["all_incremental"]},
-           "fn_point": _fn_point(pred["afp"], pred["all_incremental"], lines),
-           "reference_lines": checks, "reference_lines_counts": count_positions(checks)}
+    checks = line_checks(
+        lines,
+        levels,
+        Figures(pred["afp"], pred["all_incremental"], fn.get("predictive")),
+        Figures(mo["afp"], mo["all_incremental"], fn.get("mode")),
+        Figures(v["afp"], v["all_incremental"], fn.get("draws")),
+        w,
+        fn_basis=fn.get("basis", ""),
+    )
+    out = {
+        "year": risk.year,
+        "condition": condition,
+        "afp_per_yr": {"predictive": pred["afp"], "mode": mo["afp"], "ensemble": _stats(v["afp"], w)},
+        "ead_per_yr": {"predictive": pred["ead"], "mode": mo["ead"]},
+        "all_lives_per_yr": {"predictive": pred["all"], "mode": mo["all"], "ensemble": _stats(v["all"], w)},
+        "all_incremental_lives_per_yr": {"predictive": pred["all_incremental"], "mode": mo["all_incremental"]},
+        "fn_point": _fn_point(pred["afp"], pred["all_incremental"], lines),
+        "reference_lines": checks,
+        "reference_lines_counts": count_positions(checks),
+    }
     if base is not None:
         for key, n in (("afp_reduction_per_yr", "afp"), ("all_reduction_lives_per_yr", "all")):
             d = base.values[n] - v[n]
@@ -433,8 +484,12 @@ def compare(scenario, *, workers=None) -> Comparison:
         fac = dict(damage_factor=settings.damage_factor, life_loss_factor=settings.life_loss_factor)
         models[fy] = {BASE_NAME: plan_model(scenario, [settings.future], prefix="economics.future", **fac)}
         for a in alts:
-            models[fy][a.name] = plan_model(scenario, [a.override, settings.future, a.future_override],
-                                            prefix=f"alternatives[{a.index}].future", **fac)
+            models[fy][a.name] = plan_model(
+                scenario,
+                [a.override, settings.future, a.future_override],
+                prefix=f"alternatives[{a.index}].future",
+                **fac,
+            )
     ev = evaluate_plans(scenario, models, ensembles, workers=workers)
     risks, w = ev["risks"], ev["weights"]
     equivalent, equivalent_mode = {}, {}
@@ -445,90 +500,156 @@ def compare(scenario, *, workers=None) -> Comparison:
     conditions = _conditions(settings)
     base_eq, base_mode = equivalent[BASE_NAME], equivalent_mode[BASE_NAME]
     # life loss is never discounted: its mean over the years of the period (linear between condition years)
-    plain = {plan: {n: _period_mean(np.stack([r.values[n] for r in rs], axis=-1), settings) for n in ("all",)}
-             for plan, rs in risks.items()}
-    plain_mode = {plan: {n: float(_period_mean(np.array([r.mode[n] for r in rs]), settings)) for n in ("all",)}
-                  for plan, rs in risks.items()}
+    plain = {
+        plan: {n: _period_mean(np.stack([r.values[n] for r in rs], axis=-1), settings) for n in ("all",)}
+        for plan, rs in risks.items()
+    }
+    plain_mode = {
+        plan: {n: float(_period_mean(np.array([r.mode[n] for r in rs]), settings)) for n in ("all",)}
+        for plan, rs in risks.items()
+    }
     economics, figures, notes = {}, {}, []
     base_sig = risks[BASE_NAME][0].signature
     for a in alts:
         eq, mo = equivalent[a.name], equivalent_mode[a.name]
-        cost = float(ec.annualized_cost(a.first_cost, a.annual_om, settings.rate, settings.period_years,
-                                        a.construction_months))
+        cost = float(
+            ec.annualized_cost(a.first_cost, a.annual_om, settings.rate, settings.period_years, a.construction_months)
+        )
         idc = float(ec.interest_during_construction(a.first_cost, settings.rate, a.construction_months))
         if cost <= 0:
-            raise InputError("the alternative costs nothing; expected first_cost or annual_om above 0",
-                             scenario.path, key=f"alternatives[{a.index}].first_cost")
+            raise InputError(
+                "the alternative costs nothing; expected first_cost or annual_om above 0",
+                scenario.path,
+                key=f"alternatives[{a.index}].first_cost",
+            )
         res = ec.benefit_figures(base_eq["ead"], eq["ead"], cost, base_eq["all"], eq["all"])
         economics[a.name] = res
         mean_b = float(w @ res.expected_annual_benefit)
         mean_dall = float(w @ res.life_loss_reduction)
         mean_dafp = float(w @ (base_eq["afp"] - eq["afp"]))
-        head = ec.benefit_figures(float(w @ base_eq["ead"]), float(w @ eq["ead"]), cost,
-                                  float(w @ base_eq["all"]), float(w @ eq["all"]))
+        head = ec.benefit_figures(
+            float(w @ base_eq["ead"]), float(w @ eq["ead"]), cost, float(w @ base_eq["all"]), float(w @ eq["all"])
+        )
         mode_res = ec.benefit_figures(base_mode["ead"], mo["ead"], cost, base_mode["all"], mo["all"])
         mode_b = float(mode_res.expected_annual_benefit)
         paired = all(r.signature == base_sig for r in risks[a.name])
         if not paired:
-            notes.append(f"{a.name}: its knowledge-uncertainty structure differs from the base's, so its response "
-                         "draws are not paired with the base's (the hazard realizations are); the benefit's "
-                         "percentiles are wider than with paired draws, its mean is unaffected")
+            notes.append(
+                f"{a.name}: its knowledge-uncertainty structure differs from the base's, so its response "
+                "draws are not paired with the base's (the hazard realizations are); the benefit's "
+                "percentiles are wider than with paired draws, its mean is unaffected"
+            )
         by = risks[a.name][0]
         d_all = plain[BASE_NAME]["all"] - plain[a.name]["all"]
         mean_d_all = float(w @ d_all)
         mode_d_all = plain_mode[BASE_NAME]["all"] - plain_mode[a.name]["all"]
-        net_cost = {"predictive": float(ec.net_cost_per_life_saved(cost, mean_b, mean_d_all)),
-                    "mode": float(ec.net_cost_per_life_saved(cost, mode_b, mode_d_all))}
-        years = [condition_year_figures(r, w, all_lines, base=b, condition=cnd)
-                 for r, b, cnd in zip(risks[a.name], risks[BASE_NAME], conditions)]
+        net_cost = {
+            "predictive": float(ec.net_cost_per_life_saved(cost, mean_b, mean_d_all)),
+            "mode": float(ec.net_cost_per_life_saved(cost, mode_b, mode_d_all)),
+        }
+        years = [
+            condition_year_figures(r, w, all_lines, base=b, condition=cnd)
+            for r, b, cnd in zip(risks[a.name], risks[BASE_NAME], conditions)
+        ]
         figures[a.name] = {
             "description": a.description,
-            "costs": {"first_cost": a.first_cost, "annual_om_per_yr": a.annual_om,
-                      "construction_months": a.construction_months, "interest_during_construction": idc,
-                      "investment_cost": a.first_cost + idc, "annualized_cost_per_yr": cost},
-            "expected_annual_damage_per_yr": {"predictive": float(w @ eq["ead"]), "mode": mo["ead"],
-                                              "ensemble": _stats(eq["ead"], w)},
-            "expected_annual_benefit_per_yr": {"predictive": mean_b, "mode": mode_b,
-                                               "ratio_predictive_to_mode": _ratio(mean_b, mode_b),
-                                               "ensemble": _stats(res.expected_annual_benefit, w)},
-            "net_benefit_per_yr": {"predictive": mean_b - cost, "mode": mode_b - cost,
-                                   "ensemble": _stats(res.net_benefit, w)},
-            "benefit_cost_ratio": {"predictive": float(head.benefit_cost_ratio), "mode": float(mode_res.benefit_cost_ratio),
-                                   "ensemble": _stats(res.benefit_cost_ratio, w)},
-            "afp_reduction_per_yr": {"predictive": mean_dafp, "mode": base_mode["afp"] - mo["afp"],
-                                     "ensemble": _stats(base_eq["afp"] - eq["afp"], w)},
-            "all_reduction_lives_per_yr": {"predictive": mean_dall, "mode": float(mode_res.life_loss_reduction),
-                                           "ensemble": _stats(res.life_loss_reduction, w)},
-            "cost_per_statistical_life_saved": {"predictive": float(head.cost_per_life_saved),
-                                                "mode": float(mode_res.cost_per_life_saved)},
-            "base_year": {"afp_per_yr": float(w @ by.values["afp"]), "ead_per_yr": float(w @ by.values["ead"]),
-                          "all_lives_per_yr": float(w @ by.values["all"])},
+            "costs": {
+                "first_cost": a.first_cost,
+                "annual_om_per_yr": a.annual_om,
+                "construction_months": a.construction_months,
+                "interest_during_construction": idc,
+                "investment_cost": a.first_cost + idc,
+                "annualized_cost_per_yr": cost,
+            },
+            "expected_annual_damage_per_yr": {
+                "predictive": float(w @ eq["ead"]),
+                "mode": mo["ead"],
+                "ensemble": _stats(eq["ead"], w),
+            },
+            "expected_annual_benefit_per_yr": {
+                "predictive": mean_b,
+                "mode": mode_b,
+                "ratio_predictive_to_mode": _ratio(mean_b, mode_b),
+                "ensemble": _stats(res.expected_annual_benefit, w),
+            },
+            "net_benefit_per_yr": {
+                "predictive": mean_b - cost,
+                "mode": mode_b - cost,
+                "ensemble": _stats(res.net_benefit, w),
+            },
+            "benefit_cost_ratio": {
+                "predictive": float(head.benefit_cost_ratio),
+                "mode": float(mode_res.benefit_cost_ratio),
+                "ensemble": _stats(res.benefit_cost_ratio, w),
+            },
+            "afp_reduction_per_yr": {
+                "predictive": mean_dafp,
+                "mode": base_mode["afp"] - mo["afp"],
+                "ensemble": _stats(base_eq["afp"] - eq["afp"], w),
+            },
+            "all_reduction_lives_per_yr": {
+                "predictive": mean_dall,
+                "mode": float(mode_res.life_loss_reduction),
+                "ensemble": _stats(res.life_loss_reduction, w),
+            },
+            "cost_per_statistical_life_saved": {
+                "predictive": float(head.cost_per_life_saved),
+                "mode": float(mode_res.cost_per_life_saved),
+            },
+            "base_year": {
+                "afp_per_yr": float(w @ by.values["afp"]),
+                "ead_per_yr": float(w @ by.values["ead"]),
+                "all_lives_per_yr": float(w @ by.values["all"]),
+            },
             "fn_point": _fn_point(float(w @ by.values["afp"]), float(w @ by.values["all_incremental"]), lines),
             "response_draws_paired": paired,
             # added: risk per condition year (not discounted), the undiscounted life-loss reduction and the net
             # cost per statistical life saved on it
             "condition_years": years,
-            "all_reduction_lives_per_yr_undiscounted": {"predictive": mean_d_all, "mode": mode_d_all,
-                                                        "ensemble": _stats(d_all, w)},
+            "all_reduction_lives_per_yr_undiscounted": {
+                "predictive": mean_d_all,
+                "mode": mode_d_all,
+                "ensemble": _stats(d_all, w),
+            },
             "net_cost_per_statistical_life_saved": net_cost,
         }
     pred_order = sorted(figures, key=lambda n: -figures[n]["net_benefit_per_yr"]["predictive"])
     mode_order = sorted(figures, key=lambda n: -figures[n]["net_benefit_per_yr"]["mode"])
-    ranking = {"by": "net benefit", "economic_only": True,
-               "note": "the ranking is economic only (net benefit); it does not rank life safety: read each plan's "
-                       "position against the reference lines per condition year (condition_years)",
-               "predictive": pred_order, "mode": mode_order,
-               "changes_between_predictive_and_mode": pred_order != mode_order,
-               "top_changes": pred_order[0] != mode_order[0],
-               "justified_predictive": [n for n in pred_order if figures[n]["net_benefit_per_yr"]["predictive"] > 0],
-               "justified_mode": [n for n in mode_order if figures[n]["net_benefit_per_yr"]["mode"] > 0]}
+    ranking = {
+        "by": "net benefit",
+        "economic_only": True,
+        "note": "the ranking is economic only (net benefit); it does not rank life safety: read each plan's "
+        "position against the reference lines per condition year (condition_years)",
+        "predictive": pred_order,
+        "mode": mode_order,
+        "changes_between_predictive_and_mode": pred_order != mode_order,
+        "top_changes": pred_order[0] != mode_order[0],
+        "justified_predictive": [n for n in pred_order if figures[n]["net_benefit_per_yr"]["predictive"] > 0],
+        "justified_mode": [n for n in mode_order if figures[n]["net_benefit_per_yr"]["mode"] > 0],
+    }
     if ev["draws_per_realization"] > 1:
-        notes.append(f"{ev['draws_per_realization']} response draws per realization; plans without knowledge "
-                     "uncertainty repeat their realization's value over its draws (exact)")
-    notes.append("all plans use one grid, the same hazard realizations and the same seed and chunking; the "
-                 "grid holds every plan's breakpoints, so the without-project figures can differ from a single "
-                 "`riskcalc run` in the last digits")
-    return Comparison(scenario=scenario, settings=settings, alternatives=alts, weights=w,
-                      realization=ev["realization"], risks=risks, equivalent=equivalent,
-                      equivalent_mode=equivalent_mode, economics=economics, figures=figures, ranking=ranking,
-                      notes=notes, draws_per_realization=ev["draws_per_realization"], grids=ev["grids"])
+        notes.append(
+            f"{ev['draws_per_realization']} response draws per realization; plans without knowledge "
+            "uncertainty repeat their realization's value over its draws (exact)"
+        )
+    notes.append(
+        "all plans use one grid, the same hazard realizations and the same seed and chunking; the "
+        "grid holds every plan's breakpoints, so the without-project figures can differ from a single "
+        "`riskcalc run` in the last digits"
+    )
+    return Comparison(
+        scenario=scenario,
+        settings=settings,
+        alternatives=alts,
+        weights=w,
+        realization=ev["realization"],
+        risks=risks,
+        equivalent=equivalent,
+        equivalent_mode=equivalent_mode,
+        economics=economics,
+        figures=figures,
+        ranking=ranking,
+        notes=notes,
+        draws_per_realization=ev["draws_per_realization"],
+        grids=ev["grids"],
+    )

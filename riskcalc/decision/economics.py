@@ -283,8 +283,7 @@ def annual_values(values, period_years, years=None, base_year=None) -> np.ndarra
         if base_year is not None:
             raise ValueError("base_year applies only with breakpoint years; give years= as well")
         if v.shape[-1] != t_len:
-            raise ValueError(
-                f"values give {v.shape[-1]} years on their last axis but period_years is {t_len}")
+            raise ValueError(f"values give {v.shape[-1]} years on their last axis but period_years is {t_len}")
         return v.copy()
     y = _f(years)
     if y.ndim != 1 or y.size == 0:
@@ -603,14 +602,22 @@ def benefit_figures(ead_without, ead_with, annual_cost, all_without=None, all_wi
     with np.errstate(divide="ignore", invalid="ignore"):
         bcr = benefit / cost
     fields = dict(
-        ead_without=ew, ead_with=ep, annual_cost=cost, expected_annual_benefit=benefit,
-        net_benefit=benefit - cost, benefit_cost_ratio=bcr,
+        ead_without=ew,
+        ead_with=ep,
+        annual_cost=cost,
+        expected_annual_benefit=benefit,
+        net_benefit=benefit - cost,
+        benefit_cost_ratio=bcr,
     )
     if all_without is not None:
         lw, lp = (np.array(a) for a in arrays[3:])
         reduction = lw - lp
-        fields.update(all_without=lw, all_with=lp, life_loss_reduction=reduction,
-                      cost_per_life_saved=np.asarray(net_cost_per_life_saved(cost, benefit, reduction)))
+        fields.update(
+            all_without=lw,
+            all_with=lp,
+            life_loss_reduction=reduction,
+            cost_per_life_saved=np.asarray(net_cost_per_life_saved(cost, benefit, reduction)),
+        )
     return EconomicResult(**fields)
 
 

@@ -55,7 +55,7 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import ClassVar, Union
+from typing import ClassVar
 
 import numpy as np
 
@@ -235,7 +235,7 @@ class ProbabilityLine:
         return self.measure == "annual_failure_probability"
 
 
-Line = Union[FNLimitLine, LifeLossLine, ProbabilityLine]
+Line = FNLimitLine | LifeLossLine | ProbabilityLine
 _LINE_TYPES = (FNLimitLine, LifeLossLine, ProbabilityLine)
 
 
@@ -275,71 +275,108 @@ class GuidelineSet:
 # --------------------------------------------------------------------------
 # Defaults (display only; the governing agency's current policy applies)
 # --------------------------------------------------------------------------
-_USACE = f"US Army Corps of Engineers (2014), ER 1110-2-1156, Safety of Dams - Policy and Procedures, ch. 5 {UNVERIFIED}"
+_USACE = (
+    f"US Army Corps of Engineers (2014), ER 1110-2-1156, Safety of Dams - Policy and Procedures, ch. 5 {UNVERIFIED}"
+)
 _USBR = f"US Bureau of Reclamation (2011), Dam Safety Public Protection Guidelines {UNVERIFIED}"
 _ANCOLD = f"ANCOLD (2003), Guidelines on Risk Assessment {UNVERIFIED}"
-_USACE_LEVEE = ("US Army Corps of Engineers, levee safety policy and procedures: the tolerable risk guidelines "
-                f"of ER 1110-2-1156 (2014) ch. 5 as applied to levees {UNVERIFIED}")
+_USACE_LEVEE = (
+    "US Army Corps of Engineers, levee safety policy and procedures: the tolerable risk guidelines "
+    f"of ER 1110-2-1156 (2014) ch. 5 as applied to levees {UNVERIFIED}"
+)
 
 #: Default guideline sets, keyed by a short identifier. Recalled values, not
 #: verified here: check the primary documents, and use the governing agency's
 #: current policy.
-DEFAULT_GUIDELINES: Mapping[str, GuidelineSet] = MappingProxyType({
-    "usace_2014": GuidelineSet(
-        name="USACE tolerable risk guidelines (2014)",
-        source=_USACE,
-        lines=(
-            ProbabilityLine("USACE individual incremental risk", _USACE, 1e-4, measure="individual_risk"),
-            FNLimitLine("USACE societal incremental risk limit", _USACE, anchor_n=1.0, anchor_f=1e-3,
-                        slope=-1.0, n_min=1.0, n_max=1000.0),
+DEFAULT_GUIDELINES: Mapping[str, GuidelineSet] = MappingProxyType(
+    {
+        "usace_2014": GuidelineSet(
+            name="USACE tolerable risk guidelines (2014)",
+            source=_USACE,
+            lines=(
+                ProbabilityLine("USACE individual incremental risk", _USACE, 1e-4, measure="individual_risk"),
+                FNLimitLine(
+                    "USACE societal incremental risk limit",
+                    _USACE,
+                    anchor_n=1.0,
+                    anchor_f=1e-3,
+                    slope=-1.0,
+                    n_min=1.0,
+                    n_max=1000.0,
+                ),
+            ),
         ),
-    ),
-    "usbr_2011": GuidelineSet(
-        name="USBR public protection guidelines (2011)",
-        source=_USBR,
-        lines=(
-            ProbabilityLine("USBR annual failure probability", _USBR, 1e-4),
-            LifeLossLine("USBR annualized life loss 0.001", _USBR, 1e-3),
-            LifeLossLine("USBR annualized life loss 0.01", _USBR, 1e-2),
+        "usbr_2011": GuidelineSet(
+            name="USBR public protection guidelines (2011)",
+            source=_USBR,
+            lines=(
+                ProbabilityLine("USBR annual failure probability", _USBR, 1e-4),
+                LifeLossLine("USBR annualized life loss 0.001", _USBR, 1e-3),
+                LifeLossLine("USBR annualized life loss 0.01", _USBR, 1e-2),
+            ),
         ),
-    ),
-    "ancold_2003": GuidelineSet(
-        name="ANCOLD guidelines on risk assessment (2003)",
-        source=_ANCOLD,
-        lines=(
-            ProbabilityLine("ANCOLD individual risk, existing dams", _ANCOLD, 1e-4, measure="individual_risk"),
-            ProbabilityLine("ANCOLD individual risk, new dams", _ANCOLD, 1e-5, measure="individual_risk"),
-            FNLimitLine("ANCOLD societal risk limit, existing dams", _ANCOLD, anchor_n=1.0, anchor_f=1e-3,
-                        slope=-1.0, n_min=1.0, n_max=1000.0),
-            FNLimitLine("ANCOLD societal risk limit, new dams", _ANCOLD, anchor_n=1.0, anchor_f=1e-4,
-                        slope=-1.0, n_min=1.0, n_max=1000.0),
+        "ancold_2003": GuidelineSet(
+            name="ANCOLD guidelines on risk assessment (2003)",
+            source=_ANCOLD,
+            lines=(
+                ProbabilityLine("ANCOLD individual risk, existing dams", _ANCOLD, 1e-4, measure="individual_risk"),
+                ProbabilityLine("ANCOLD individual risk, new dams", _ANCOLD, 1e-5, measure="individual_risk"),
+                FNLimitLine(
+                    "ANCOLD societal risk limit, existing dams",
+                    _ANCOLD,
+                    anchor_n=1.0,
+                    anchor_f=1e-3,
+                    slope=-1.0,
+                    n_min=1.0,
+                    n_max=1000.0,
+                ),
+                FNLimitLine(
+                    "ANCOLD societal risk limit, new dams",
+                    _ANCOLD,
+                    anchor_n=1.0,
+                    anchor_f=1e-4,
+                    slope=-1.0,
+                    n_min=1.0,
+                    n_max=1000.0,
+                ),
+            ),
         ),
-    ),
-    # USACE applies one set of tolerable risk guidelines to dams and levees; recalled for a levee: individual
-    # life safety risk 1e-4 per year, societal F-N limit (N = 1, F = 1e-3) to (N = 1000, F = 1e-6). No annual
-    # failure probability line (that is USBR's, for dams).
-    "usace_levee": GuidelineSet(
-        name="USACE tolerable risk guidelines applied to levees",
-        source=_USACE_LEVEE,
-        lines=(
-            ProbabilityLine("USACE individual life safety risk, levee", _USACE_LEVEE, 1e-4,
-                            measure="individual_risk"),
-            FNLimitLine("USACE societal life safety risk limit, levee", _USACE_LEVEE, anchor_n=1.0, anchor_f=1e-3,
-                        slope=-1.0, n_min=1.0, n_max=1000.0),
+        # USACE applies one set of tolerable risk guidelines to dams and levees; recalled for a levee: individual
+        # life safety risk 1e-4 per year, societal F-N limit (N = 1, F = 1e-3) to (N = 1000, F = 1e-6). No annual
+        # failure probability line (that is USBR's, for dams).
+        "usace_levee": GuidelineSet(
+            name="USACE tolerable risk guidelines applied to levees",
+            source=_USACE_LEVEE,
+            lines=(
+                ProbabilityLine(
+                    "USACE individual life safety risk, levee", _USACE_LEVEE, 1e-4, measure="individual_risk"
+                ),
+                FNLimitLine(
+                    "USACE societal life safety risk limit, levee",
+                    _USACE_LEVEE,
+                    anchor_n=1.0,
+                    anchor_f=1e-3,
+                    slope=-1.0,
+                    n_min=1.0,
+                    n_max=1000.0,
+                ),
+            ),
         ),
-    ),
-})
+    }
+)
 
 #: The kinds of structure a scenario can name (its top-level ``structure`` key).
 STRUCTURES = ("dam", "levee", "unspecified")
 
 #: Default sets drawn for each kind of structure when the scenario has no ``[guidelines]`` section. A levee
 #: gets the USACE guidelines only; ``"unspecified"`` keeps the dam sets (and :func:`structure_note` says so).
-STRUCTURE_DEFAULTS: Mapping[str, tuple] = MappingProxyType({
-    "dam": ("usace_2014", "usbr_2011", "ancold_2003"),
-    "levee": ("usace_levee",),
-    "unspecified": ("usace_2014", "usbr_2011", "ancold_2003"),
-})
+STRUCTURE_DEFAULTS: Mapping[str, tuple] = MappingProxyType(
+    {
+        "dam": ("usace_2014", "usbr_2011", "ancold_2003"),
+        "levee": ("usace_levee",),
+        "unspecified": ("usace_2014", "usbr_2011", "ancold_2003"),
+    }
+)
 
 #: Default sets written for dams only: not drawn for a levee unless its ``[guidelines]`` includes them.
 DAM_ONLY = ("usbr_2011", "ancold_2003")
@@ -369,9 +406,11 @@ def default_guidelines(structure: str = "unspecified") -> GuidelineSet:
         raise ValueError(f"structure must be one of {', '.join(STRUCTURES)}; got {structure!r}")
     sets = [DEFAULT_GUIDELINES[k] for k in STRUCTURE_DEFAULTS[structure]]
     who = _STRUCTURE_WORDS.get(structure, "a dam (the structure kind was not given)")
-    return GuidelineSet(name=f"display defaults from published guidance for {who}",
-                        source="; ".join(gs.source for gs in sets),
-                        lines=tuple(ln for gs in sets for ln in gs.lines))
+    return GuidelineSet(
+        name=f"display defaults from published guidance for {who}",
+        source="; ".join(gs.source for gs in sets),
+        lines=tuple(ln for gs in sets for ln in gs.lines),
+    )
 
 
 def scenario_guideline_set(scenario) -> tuple[GuidelineSet, str]:
@@ -407,16 +446,21 @@ def structure_note(structure: str, origin: str = "defaults") -> str:
         As returned by :func:`scenario_guideline_set`.
     """
     if origin == "scenario":
-        return ("The reference lines are those of the scenario's [guidelines] section"
-                + (f" (structure: {structure})." if structure in _STRUCTURE_WORDS else "."))
+        return "The reference lines are those of the scenario's [guidelines] section" + (
+            f" (structure: {structure})." if structure in _STRUCTURE_WORDS else "."
+        )
     if structure == "levee":
-        return ("The structure is a levee: the default lines are the USACE tolerable risk guidelines, which USACE "
-                "applies to levees as well as dams; the dam-only USBR public protection guidelines and ANCOLD "
-                "are not drawn (add them with [guidelines] include if the governing agency asks).")
+        return (
+            "The structure is a levee: the default lines are the USACE tolerable risk guidelines, which USACE "
+            "applies to levees as well as dams; the dam-only USBR public protection guidelines and ANCOLD "
+            "are not drawn (add them with [guidelines] include if the governing agency asks)."
+        )
     if structure == "dam":
         return "The structure is a dam: the default lines are those of USACE, USBR and ANCOLD for dams."
-    return ("The scenario does not give the kind of structure (structure = \"dam\" or \"levee\"), so the "
-            "default lines for a dam are drawn (USACE, USBR and ANCOLD); for a levee only the USACE lines apply.")
+    return (
+        'The scenario does not give the kind of structure (structure = "dam" or "levee"), so the '
+        "default lines for a dam are drawn (USACE, USBR and ANCOLD); for a levee only the USACE lines apply."
+    )
 
 
 # --------------------------------------------------------------------------
@@ -516,8 +560,10 @@ def evaluate_line(line: Line, n):
             ok = _in_range(line, n)
         elif isinstance(line, ProbabilityLine):
             if not line.on_chart:
-                raise ValueError(f"'{line.name}' limits individual risk; compare a computed individual risk "
-                                 "with check_value, it is not a line on F-N axes")
+                raise ValueError(
+                    f"'{line.name}' limits individual risk; compare a computed individual risk "
+                    "with check_value, it is not a line on F-N axes"
+                )
             f = np.full(n.shape, line.value)
             ok = n > 0
         else:
@@ -704,5 +750,6 @@ def check_fn_curve(line: Line, n, f, step: bool = True) -> CurveCheck:
     none = np.isneginf(max_ratio)
     max_ratio = np.where(none, np.nan, max_ratio)
     n_at_max = np.where(none, np.nan, np.take_along_axis(n_at_b, k[..., None], axis=-1)[..., 0])
-    return CurveCheck(ratio=ratio, n_at=np.array(n_at_b), max_ratio=max_ratio, n_at_max=n_at_max,
-                      exceeds=np.asarray(max_ratio > 1))
+    return CurveCheck(
+        ratio=ratio, n_at=np.array(n_at_b), max_ratio=max_ratio, n_at_max=n_at_max, exceeds=np.asarray(max_ratio > 1)
+    )

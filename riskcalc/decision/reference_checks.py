@@ -32,26 +32,53 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .guidelines import (FNLimitLine, LifeLossLine, ProbabilityLine, check_fn_curve, check_point, evaluate_line,
-                         scenario_guideline_set, structure_note)
+from .guidelines import (
+    FNLimitLine,
+    ProbabilityLine,
+    check_fn_curve,
+    check_point,
+    evaluate_line,
+    scenario_guideline_set,
+    structure_note,
+)
 
-__all__ = ["POSITIONS", "KIND_TEXT", "NOT_ASSESSED", "Figures", "definition", "position", "point_ratios",
-           "curve_ratios", "draw_shares", "line_checks", "count_positions", "reference_checks", "draw_fn_curves",
-           "summary_line"]
+__all__ = [
+    "POSITIONS",
+    "KIND_TEXT",
+    "NOT_ASSESSED",
+    "Figures",
+    "definition",
+    "position",
+    "point_ratios",
+    "curve_ratios",
+    "draw_shares",
+    "line_checks",
+    "count_positions",
+    "reference_checks",
+    "draw_fn_curves",
+    "summary_line",
+]
 
 #: The positions of a figure against a line.
 POSITIONS = ("above", "below", "not applicable", "not assessed")
 
 #: What each kind of line is called in tables.
-KIND_TEXT = {"fn_limit": "F-N limit line", "life_loss": "annualized life loss line",
-             "probability": "annual failure probability line", "individual_risk": "individual risk line"}
+KIND_TEXT = {
+    "fn_limit": "F-N limit line",
+    "life_loss": "annualized life loss line",
+    "probability": "annual failure probability line",
+    "individual_risk": "individual risk line",
+}
 
 #: Why an individual-risk line has no position.
 NOT_ASSESSED = "not assessed (riskcalc does not compute individual risk)"
 
-_COMPARED = {"fn_limit": "F-N curve (anywhere in the line's N range)",
-             "life_loss": "f-N point (AFP at N = ALL_inc / AFP)", "probability": "AFP",
-             "individual_risk": NOT_ASSESSED}
+_COMPARED = {
+    "fn_limit": "F-N curve (anywhere in the line's N range)",
+    "life_loss": "f-N point (AFP at N = ALL_inc / AFP)",
+    "probability": "AFP",
+    "individual_risk": NOT_ASSESSED,
+}
 
 
 @dataclass(frozen=True)
@@ -182,8 +209,12 @@ def draw_shares(ratio, weights) -> dict:
     na = np.isnan(r)
     above = float(w[~na & (np.where(na, 0.0, r) > 1)].sum()) / total
     n_a = float(w[na].sum()) / total
-    return {"share_above": above, "share_below": max(0.0, 1.0 - above - n_a), "share_not_applicable": n_a,
-            "count": int(r.size)}
+    return {
+        "share_above": above,
+        "share_below": max(0.0, 1.0 - above - n_a),
+        "share_not_applicable": n_a,
+        "count": int(r.size),
+    }
 
 
 def _place(line, levels, fig: Figures):
@@ -201,8 +232,9 @@ def _place(line, levels, fig: Figures):
     return float(fig.afp), limit, ratio, n
 
 
-def line_checks(lines, levels, predictive: Figures, mode: Figures, draws: Figures, weights, fn_weights=None,
-                fn_basis: str = "") -> list[dict]:
+def line_checks(
+    lines, levels, predictive: Figures, mode: Figures, draws: Figures, weights, fn_weights=None, fn_basis: str = ""
+) -> list[dict]:
     """Every line against the predictive and mode figures, with the confidence over the draws.
 
     Parameters
@@ -235,22 +267,43 @@ def line_checks(lines, levels, predictive: Figures, mode: Figures, draws: Figure
     out = []
     for ln in lines:
         k = _kind(ln)
-        row = {"line": ln.name, "source": ln.source, "kind": k, "kind_text": KIND_TEXT[k],
-               "definition": definition(ln), "compared_with": _COMPARED[k]}
+        row = {
+            "line": ln.name,
+            "source": ln.source,
+            "kind": k,
+            "kind_text": KIND_TEXT[k],
+            "definition": definition(ln),
+            "compared_with": _COMPARED[k],
+        }
         if k == "individual_risk":
-            blank = {"computed_per_yr": None, "limit_per_yr": ln.value, "ratio": None, "n_lives": None,
-                     "position": "not assessed"}
+            blank = {
+                "computed_per_yr": None,
+                "limit_per_yr": ln.value,
+                "ratio": None,
+                "n_lives": None,
+                "position": "not assessed",
+            }
             out.append({**row, "predictive": dict(blank), "mode": dict(blank), "draws": None})
             continue
         for name, fig in (("predictive", predictive), ("mode", mode)):
             placed = _place(ln, levels, fig)
             if placed is None:
-                row[name] = {"computed_per_yr": None, "limit_per_yr": None, "ratio": None, "n_lives": None,
-                             "position": "not applicable"}
+                row[name] = {
+                    "computed_per_yr": None,
+                    "limit_per_yr": None,
+                    "ratio": None,
+                    "n_lives": None,
+                    "position": "not applicable",
+                }
                 continue
             comp, limit, ratio, n = placed
-            row[name] = {"computed_per_yr": comp, "limit_per_yr": limit, "ratio": ratio, "n_lives": n,
-                         "position": position(ratio)}
+            row[name] = {
+                "computed_per_yr": comp,
+                "limit_per_yr": limit,
+                "ratio": ratio,
+                "n_lives": n,
+                "position": position(ratio),
+            }
         if k == "fn_limit":
             if draws.fn is None:
                 row["draws"] = None
@@ -335,19 +388,28 @@ def reference_checks(result, guidelines=None) -> dict:
     vp, vm = result.values_predictive, result.values_mode
     fn_d, fn_w, basis = draw_fn_curves(result)
     checks = line_checks(
-        gs.lines, levels,
+        gs.lines,
+        levels,
         Figures(vp["afp"], vp["all_incremental"], np.asarray(result.fn["predictive"], float)),
         Figures(vm["afp"], vm["all_incremental"], np.asarray(result.fn["mode"], float)),
-        Figures(prop.column("afp"), prop.column("all_incremental"), fn_d), prop.weights, fn_w, basis)
-    return to_plain({
-        "structure": structure, "lines_from": origin,
-        "note": structure_note(structure, "scenario" if origin == "given" else origin),
-        "lines": checks, "counts": count_positions(checks),
-        "confidence": "share of draws above a line = the weighted share of the epistemic Monte Carlo draws whose "
-                      "figure lies above it (AFP for an AFP line, the f-N point for a life-loss line, the F-N "
-                      "curve anywhere in the line's N range for an F-N limit line)",
-        "individual_risk": NOT_ASSESSED,
-    })
+        Figures(prop.column("afp"), prop.column("all_incremental"), fn_d),
+        prop.weights,
+        fn_w,
+        basis,
+    )
+    return to_plain(
+        {
+            "structure": structure,
+            "lines_from": origin,
+            "note": structure_note(structure, "scenario" if origin == "given" else origin),
+            "lines": checks,
+            "counts": count_positions(checks),
+            "confidence": "share of draws above a line = the weighted share of the epistemic Monte Carlo draws whose "
+            "figure lies above it (AFP for an AFP line, the f-N point for a life-loss line, the F-N "
+            "curve anywhere in the line's N range for an F-N limit line)",
+            "individual_risk": NOT_ASSESSED,
+        }
+    )
 
 
 def summary_line(ref: dict) -> str:
@@ -363,11 +425,14 @@ def summary_line(ref: dict) -> str:
     p, m = c["predictive"], c["mode"]
     if ref.get("lines_from") == "defaults":
         which = {"dam": "defaults for a dam", "levee": "defaults for a levee"}.get(
-            ref.get("structure"), "defaults for a dam; structure not given")
+            ref.get("structure"), "defaults for a dam; structure not given"
+        )
     else:
         which = "the scenario's [guidelines]"
-    text = (f"Reference lines ({which}): the predictive figures lie above {p['above']} of {n}, the mode-curve "
-            f"figures above {m['above']} of {n}")
+    text = (
+        f"Reference lines ({which}): the predictive figures lie above {p['above']} of {n}, the mode-curve "
+        f"figures above {m['above']} of {n}"
+    )
     na = max(p["not applicable"], m["not applicable"])
     if na:
         text += f" ({p['not applicable']} / {m['not applicable']} not applicable)"

@@ -100,8 +100,6 @@ def weighted_quantile(values, weights, levels):
     return out
 
 
-
-
 def invert_on_paper(x, aep, target_aep, log_scale=True):
     """Quantity at ``target_aep`` from a curve ``aep(x)``, interpolating on probability paper.
 
@@ -168,8 +166,9 @@ def predictive_aep(ens: HazardEnsemble, x, chunk_bytes=CHUNK_BYTES) -> np.ndarra
     return acc
 
 
-def quantity_grid(ens: HazardEnsemble, aep_max=0.999, aep_min=1e-7, n=2000, spacing=None,
-                  breakpoints=(), extra_curves=()):
+def quantity_grid(
+    ens: HazardEnsemble, aep_max=0.999, aep_min=1e-7, n=2000, spacing=None, breakpoints=(), extra_curves=()
+):
     """A grid of quantities spanning every realization from AEP ``aep_max`` to ``aep_min``.
 
     Parameters
@@ -204,12 +203,13 @@ def quantity_grid(ens: HazardEnsemble, aep_max=0.999, aep_min=1e-7, n=2000, spac
         lo = float(pos.min()) if pos.size else hi * 1e-6
         lo = max(lo, hi * 1e-9)
     if not (np.isfinite(lo) and np.isfinite(hi)):
-        raise ValueError(f"the ensemble's quantities between AEP {aep_max} and {aep_min} are not finite numbers "
-                         f"(from {lo} to {hi}); check the parameters (lp3 and lognormal take the mean and sd "
-                         "of log10 of the quantity)")
+        raise ValueError(
+            f"the ensemble's quantities between AEP {aep_max} and {aep_min} are not finite numbers "
+            f"(from {lo} to {hi}); check the parameters (lp3 and lognormal take the mean and sd "
+            "of log10 of the quantity)"
+        )
     if not hi > lo:
-        raise ValueError(f"the ensemble spans no range between AEP {aep_max} and {aep_min} "
-                         f"(from {lo} to {hi})")
+        raise ValueError(f"the ensemble spans no range between AEP {aep_max} and {aep_min} (from {lo} to {hi})")
     if spacing == "log":
         if lo <= 0:
             raise ValueError("a log-spaced grid needs positive quantities")
@@ -247,29 +247,56 @@ def mode_curve(ens: HazardEnsemble, explicit: dict | None = None):
         fam = get_family(ens.family)
         params = {k: np.array([float(explicit[k])]) for k in fam.parameters}
         note = "mode curve: explicit parameters " + ", ".join(f"{k} = {explicit[k]:g}" for k in fam.parameters)
-        return HazardEnsemble(family=ens.family, weights=np.ones(1), params=params, labels=("mode",),
-                              quantity=ens.quantity, unit=ens.unit, source=ens.source), note
+        return HazardEnsemble(
+            family=ens.family,
+            weights=np.ones(1),
+            params=params,
+            labels=("mode",),
+            quantity=ens.quantity,
+            unit=ens.unit,
+            source=ens.source,
+        ), note
     if ens.log_posterior is not None:
         i = int(np.argmax(ens.log_posterior))
         note = f"mode curve: realization '{ens.labels[i]}', the largest log_posterior ({ens.log_posterior[i]:g})"
     elif ens.family != "table":
         params = {k: np.array([float(ens.weights @ v)]) for k, v in ens.params.items()}
-        note = ("mode curve: no log_posterior column and no explicit parameters, so the curve at the "
-                "weighted mean parameters (" + ", ".join(f"{k} = {v[0]:.4g}" for k, v in params.items()) + "); "
-                "it stands in for the mode and is not known to be the most likely curve")
-        return HazardEnsemble(family=ens.family, weights=np.ones(1), params=params, labels=("mean-parameter",),
-                              quantity=ens.quantity, unit=ens.unit, source=ens.source), note
+        note = (
+            "mode curve: no log_posterior column and no explicit parameters, so the curve at the "
+            "weighted mean parameters (" + ", ".join(f"{k} = {v[0]:.4g}" for k, v in params.items()) + "); "
+            "it stands in for the mode and is not known to be the most likely curve"
+        )
+        return HazardEnsemble(
+            family=ens.family,
+            weights=np.ones(1),
+            params=params,
+            labels=("mean-parameter",),
+            quantity=ens.quantity,
+            unit=ens.unit,
+            source=ens.source,
+        ), note
     else:
         med = weighted_quantile(ens.table_values, ens.weights, [0.5])[0]
         f = np.log10 if ens.log_scale else (lambda a: a)
         i = int(np.argmin(((f(ens.table_values) - f(med)) ** 2).sum(axis=1)))
-        note = (f"mode curve: no log_posterior column, so realization '{ens.labels[i]}', "
-                "the member closest to the median curve; it stands in for the mode and is not known to be the "
-                "most likely curve")
+        note = (
+            f"mode curve: no log_posterior column, so realization '{ens.labels[i]}', "
+            "the member closest to the median curve; it stands in for the mode and is not known to be the "
+            "most likely curve"
+        )
     one = ens.subset([i])
-    return HazardEnsemble(family=one.family, weights=np.ones(1), params=one.params, table_aep=one.table_aep,
-                          table_values=one.table_values, log_posterior=one.log_posterior, labels=one.labels,
-                          quantity=ens.quantity, unit=ens.unit, source=ens.source), note
+    return HazardEnsemble(
+        family=one.family,
+        weights=np.ones(1),
+        params=one.params,
+        table_aep=one.table_aep,
+        table_values=one.table_values,
+        log_posterior=one.log_posterior,
+        labels=one.labels,
+        quantity=ens.quantity,
+        unit=ens.unit,
+        source=ens.source,
+    ), note
 
 
 def vertical_quantiles(ens: HazardEnsemble, aeps, levels, chunk_bytes=CHUNK_BYTES):
@@ -279,7 +306,7 @@ def vertical_quantiles(ens: HazardEnsemble, aeps, levels, chunk_bytes=CHUNK_BYTE
     block = max(1, min(aeps.size, int(2 * chunk_bytes // (8 * max(1, ens.size)))))
     out = []
     for a in range(0, aeps.size, block):
-        cols = aeps[a:a + block]
+        cols = aeps[a : a + block]
         q = np.empty((ens.size, cols.size))
         chunks = list(row_chunks(ens.size, cols.size, max(8 * cols.size, chunk_bytes // 4)))
 
@@ -303,8 +330,16 @@ def median_curve(aeps, median_values, ens: HazardEnsemble) -> HazardEnsemble:
     for i in range(1, vals.size):
         if vals[i] <= vals[i - 1]:
             vals[i] = vals[i - 1] + bump[i]
-    return HazardEnsemble(family="table", weights=np.ones(1), table_aep=aeps, table_values=vals[None, :],
-                          labels=("median",), quantity=ens.quantity, unit=ens.unit, source=ens.source)
+    return HazardEnsemble(
+        family="table",
+        weights=np.ones(1),
+        table_aep=aeps,
+        table_values=vals[None, :],
+        labels=("median",),
+        quantity=ens.quantity,
+        unit=ens.unit,
+        source=ens.source,
+    )
 
 
 @dataclass(frozen=True, eq=False)
@@ -356,8 +391,18 @@ class HazardCurves:
         return f"p{round(100 * lo):02d}", f"p{round(100 * (1 - lo)):02d}"
 
 
-def hazard_curves(ens: HazardEnsemble, grid=None, *, level=0.9, aep_max=0.999, aep_min=1e-7, n_grid=2000,
-                  mode_params=None, aeps=None, predictive=None) -> HazardCurves:
+def hazard_curves(
+    ens: HazardEnsemble,
+    grid=None,
+    *,
+    level=0.9,
+    aep_max=0.999,
+    aep_min=1e-7,
+    n_grid=2000,
+    mode_params=None,
+    aeps=None,
+    predictive=None,
+) -> HazardCurves:
     """Predictive, mode and median curves and the credible band of an ensemble.
 
     Parameters
@@ -393,8 +438,24 @@ def hazard_curves(ens: HazardEnsemble, grid=None, *, level=0.9, aep_max=0.999, a
     # quantities have smaller AEPs at a fixed quantity, so the lower quantity curve gives the lower AEP limit
     p_lower = aep_on_paper(vq[0], aeps, grid, log_scale)
     p_upper = aep_on_paper(vq[2], aeps, grid, log_scale)
-    return HazardCurves(grid=grid, aep_predictive=pbar, aep_mode=p_mode, aep_median=p_med,
-                        aep_lower=p_lower, aep_upper=p_upper, aeps=aeps, quantity_predictive=q_pred,
-                        quantity_mode=mode.quantile(aeps)[0], quantity_median=vq[1], quantity_lower=vq[0],
-                        quantity_upper=vq[2], level=level, mode_note=note, mode=mode, median=med,
-                        log_scale=log_scale, quantity=ens.quantity, unit=ens.unit)
+    return HazardCurves(
+        grid=grid,
+        aep_predictive=pbar,
+        aep_mode=p_mode,
+        aep_median=p_med,
+        aep_lower=p_lower,
+        aep_upper=p_upper,
+        aeps=aeps,
+        quantity_predictive=q_pred,
+        quantity_mode=mode.quantile(aeps)[0],
+        quantity_median=vq[1],
+        quantity_lower=vq[0],
+        quantity_upper=vq[2],
+        level=level,
+        mode_note=note,
+        mode=mode,
+        median=med,
+        log_scale=log_scale,
+        quantity=ens.quantity,
+        unit=ens.unit,
+    )

@@ -32,8 +32,7 @@ from ..errors import InputError
 from ..io import read_table, split_unit
 from .families import FAMILIES, get_family
 
-__all__ = ["HazardEnsemble", "read_parameter_ensemble", "read_curve_table", "read_ensemble",
-           "normalize_weights"]
+__all__ = ["HazardEnsemble", "read_parameter_ensemble", "read_curve_table", "read_ensemble", "normalize_weights"]
 
 QUANTITIES = ("discharge", "stage")
 
@@ -46,8 +45,12 @@ def normalize_weights(w, path=None, rows=None, column="weight") -> np.ndarray:
     bad = np.flatnonzero(~np.isfinite(w) | (w < 0))
     if bad.size:
         i = int(bad[0])
-        raise InputError(f"weight {w[i]} is negative or not finite; expected a weight >= 0", path,
-                         row=None if rows is None else rows[i], column=column)
+        raise InputError(
+            f"weight {w[i]} is negative or not finite; expected a weight >= 0",
+            path,
+            row=None if rows is None else rows[i],
+            column=column,
+        )
     total = w.sum()
     if not total > 0:
         raise InputError("all weights are zero; expected at least one positive weight", path, column=column)
@@ -121,7 +124,10 @@ class HazardEnsemble:
             labels=tuple(self.labels[i] for i in idx) if self.labels else (),
             chain=None if self.chain is None else self.chain[idx],
             iteration=None if self.iteration is None else self.iteration[idx],
-            quantity=self.quantity, unit=self.unit, source=self.source)
+            quantity=self.quantity,
+            unit=self.unit,
+            source=self.source,
+        )
 
     def aep(self, x, rows=slice(None)) -> np.ndarray:
         """AEP ``(R, Q)`` of quantities ``x`` (Q,) for the realizations ``rows``."""
@@ -161,7 +167,7 @@ def _table_aep(table_aep, values, x, log_scale):
     # segment index: number of table points at or below x, clipped to the end segments
     idx = np.zeros(xv.shape, dtype=np.intp)
     for k in range(1, K - 1):
-        idx += v[:, k:k + 1] <= xv
+        idx += v[:, k : k + 1] <= xv
     lo = np.take_along_axis(v, idx, axis=1)
     hi = np.take_along_axis(v, idx + 1, axis=1)
     zl, zh = z[idx], z[idx + 1]
@@ -191,8 +197,11 @@ def _quantity_column(table, path):
         s = split_unit(c, QUANTITIES)
         if s is not None:
             return c, s[0], s[1]
-    raise InputError("missing the quantity column; expected 'discharge' or 'stage' "
-                     "(optionally with a unit, e.g. 'discharge_m3s')", path, row=table.header_row)
+    raise InputError(
+        "missing the quantity column; expected 'discharge' or 'stage' (optionally with a unit, e.g. 'discharge_m3s')",
+        path,
+        row=table.header_row,
+    )
 
 
 def read_parameter_ensemble(path, family: str, *, quantity="discharge", unit=None, sheet=None) -> HazardEnsemble:
@@ -215,8 +224,9 @@ def read_parameter_ensemble(path, family: str, *, quantity="discharge", unit=Non
     order = {}
     if table.has("chain") != table.has("iteration"):
         missing = "iteration" if table.has("chain") else "chain"
-        raise InputError(f"missing column '{missing}': an MCMC order needs both chain and iteration", path,
-                         row=table.header_row)
+        raise InputError(
+            f"missing column '{missing}': an MCMC order needs both chain and iteration", path, row=table.header_row
+        )
     for name in ("chain", "iteration"):
         if table.has(name):
             v = table.numbers(name, nonnegative=True, what="a whole number >= 0")
@@ -226,18 +236,29 @@ def read_parameter_ensemble(path, family: str, *, quantity="discharge", unit=Non
             order[name] = v.astype(np.int64)
     params = {}
     for name in fam.parameters:
-        params[name] = table.numbers(name, positive=name in fam.positive,
-                                     what="a number > 0" if name in fam.positive else "a finite number")
+        params[name] = table.numbers(
+            name, positive=name in fam.positive, what="a number > 0" if name in fam.positive else "a finite number"
+        )
     if table.has("weight"):
         w = table.numbers("weight", nonnegative=True, what="a weight >= 0")
         w = normalize_weights(w, path, table.rows)
     else:
         w = np.full(len(table), 1.0 / len(table))
     lp = table.numbers("log_posterior") if table.has("log_posterior") else None
-    labels = tuple(table.text("realization")) if table.has("realization") else tuple(
-        str(i + 1) for i in range(len(table)))
-    return HazardEnsemble(family=fam.name, weights=w, params=params, log_posterior=lp,
-                          labels=labels, quantity=quantity, unit=unit, source=str(path), **order)
+    labels = (
+        tuple(table.text("realization")) if table.has("realization") else tuple(str(i + 1) for i in range(len(table)))
+    )
+    return HazardEnsemble(
+        family=fam.name,
+        weights=w,
+        params=params,
+        log_posterior=lp,
+        labels=labels,
+        quantity=quantity,
+        unit=unit,
+        source=str(path),
+        **order,
+    )
 
 
 def read_curve_table(path, *, sheet=None, unit=None) -> HazardEnsemble:
@@ -254,16 +275,18 @@ def read_curve_table(path, *, sheet=None, unit=None) -> HazardEnsemble:
     table = read_table(path, what="curve table", sheet=sheet)
     qcol, quantity, qunit = _quantity_column(table, path)
     if unit is not None and qunit is not None and qunit != unit:
-        raise InputError(f"unit '{qunit}' does not match the scenario's unit '{unit}'", path,
-                         row=table.header_row, column=qcol)
+        raise InputError(
+            f"unit '{qunit}' does not match the scenario's unit '{unit}'", path, row=table.header_row, column=qcol
+        )
     optional = ("weight", "log_posterior")
     table.require(("realization", "aep", qcol), optional, what="curve table")
     aeps = table.numbers("aep", what="an AEP strictly between 0 and 1")
     for a, row in zip(aeps, table.rows):
         if not 0 < a < 1:
             raise InputError(f"AEP {a} is outside (0, 1)", path, row=row, column="aep")
-    vals = table.numbers(qcol, positive=quantity == "discharge",
-                         what="a discharge > 0" if quantity == "discharge" else "a finite stage")
+    vals = table.numbers(
+        qcol, positive=quantity == "discharge", what="a discharge > 0" if quantity == "discharge" else "a finite stage"
+    )
     labels = [s.strip() for s in table.text("realization")]
     for lab, row in zip(labels, table.rows):
         if lab == "":
@@ -284,41 +307,71 @@ def read_curve_table(path, *, sheet=None, unit=None) -> HazardEnsemble:
         srt = ii[np.argsort(-aeps[ii], kind="stable")]
         a = aeps[srt]
         if len(a) < 2:
-            raise InputError(f"realization '{lab}' has {len(a)} point; expected at least 2", path,
-                             row=table.rows[ii[0]], column="aep")
+            raise InputError(
+                f"realization '{lab}' has {len(a)} point; expected at least 2",
+                path,
+                row=table.rows[ii[0]],
+                column="aep",
+            )
         if ref is None:
             ref = a
             if np.any(np.diff(ref) >= 0):
                 j = int(np.flatnonzero(np.diff(ref) >= 0)[0])
-                raise InputError(f"AEP {ref[j]} appears twice in realization '{lab}'", path,
-                                 row=table.rows[srt[j + 1]], column="aep")
+                raise InputError(
+                    f"AEP {ref[j]} appears twice in realization '{lab}'", path, row=table.rows[srt[j + 1]], column="aep"
+                )
         elif len(a) != len(ref) or not np.allclose(a, ref, rtol=1e-9, atol=0):
-            raise InputError(f"realization '{lab}' does not give the same AEPs as realization '{order[0]}'",
-                             path, row=table.rows[ii[0]], column="aep")
+            raise InputError(
+                f"realization '{lab}' does not give the same AEPs as realization '{order[0]}'",
+                path,
+                row=table.rows[ii[0]],
+                column="aep",
+            )
         v = vals[srt]
         d = np.diff(v)
         if np.any(d <= 0):
             j = int(np.flatnonzero(d <= 0)[0])
-            raise InputError(f"curve '{lab}' is not monotone: {v[j + 1]:g} at AEP {a[j + 1]:g} is not above "
-                             f"{v[j]:g} at AEP {a[j]:g}", path, row=table.rows[srt[j + 1]], column=qcol)
+            raise InputError(
+                f"curve '{lab}' is not monotone: {v[j + 1]:g} at AEP {a[j + 1]:g} is not above "
+                f"{v[j]:g} at AEP {a[j]:g}",
+                path,
+                row=table.rows[srt[j + 1]],
+                column=qcol,
+            )
         values.append(v)
         if w_all is not None:
             wv = w_all[ii]
             if np.ptp(wv) > 0:
-                raise InputError(f"weight changes within realization '{lab}'", path,
-                                 row=table.rows[ii[int(np.argmax(wv != wv[0]))]], column="weight")
+                raise InputError(
+                    f"weight changes within realization '{lab}'",
+                    path,
+                    row=table.rows[ii[int(np.argmax(wv != wv[0]))]],
+                    column="weight",
+                )
             weights.append(wv[0])
         if lp_all is not None:
             lv = lp_all[ii]
             if np.ptp(lv) > 0:
-                raise InputError(f"log_posterior changes within realization '{lab}'", path,
-                                 row=table.rows[ii[int(np.argmax(lv != lv[0]))]], column="log_posterior")
+                raise InputError(
+                    f"log_posterior changes within realization '{lab}'",
+                    path,
+                    row=table.rows[ii[int(np.argmax(lv != lv[0]))]],
+                    column="log_posterior",
+                )
             lps.append(lv[0])
     R = len(order)
     w = normalize_weights(weights, path, None) if w_all is not None else np.full(R, 1.0 / R)
-    return HazardEnsemble(family="table", weights=w, table_aep=np.asarray(ref), table_values=np.vstack(values),
-                          log_posterior=None if lp_all is None else np.asarray(lps), labels=tuple(order),
-                          quantity=quantity, unit=qunit or unit, source=str(path))
+    return HazardEnsemble(
+        family="table",
+        weights=w,
+        table_aep=np.asarray(ref),
+        table_values=np.vstack(values),
+        log_posterior=None if lp_all is None else np.asarray(lps),
+        labels=tuple(order),
+        quantity=quantity,
+        unit=qunit or unit,
+        source=str(path),
+    )
 
 
 def read_ensemble(path, family: str, **kw) -> HazardEnsemble:

@@ -103,12 +103,12 @@ def _temme_sf(z, g):
     mu = z * g / 2.0
     with np.errstate(invalid="ignore", divide="ignore"):
         small = np.abs(mu) < 1e-3
-        series = mu * mu * (0.5 - mu / 3 + mu * mu / 4 - mu ** 3 / 5 + mu ** 4 / 6)
+        series = mu * mu * (0.5 - mu / 3 + mu * mu / 4 - mu**3 / 5 + mu**4 / 6)
         d = np.where(small, series, mu - np.log1p(np.where(mu > -1, mu, 0.0)))
         eta = np.sign(mu) * np.sqrt(2.0 * np.maximum(d, 0.0))
         a = 4.0 / (g * g)
         s = eta * np.sqrt(a / 2.0)
-        c0 = -1.0 / 3 + eta / 12 - 2 * eta ** 2 / 135 + eta ** 3 / 864 + 8 * eta ** 4 / 2835 - 139 * eta ** 5 / 777600
+        c0 = -1.0 / 3 + eta / 12 - 2 * eta**2 / 135 + eta**3 / 864 + 8 * eta**4 / 2835 - 139 * eta**5 / 777600
         r = np.exp(-0.5 * a * eta * eta) / np.sqrt(2 * np.pi * a) * c0
         out = np.where(g > 0, 0.5 * sc.erfc(s) + r, 0.5 * sc.erfc(-s) - r)
         # beyond the bound (1 + mu <= 0): exactly 1 below a lower bound, 0 above an upper bound
@@ -150,7 +150,7 @@ def _small_skew_isf(p, g):
     """Frequency factor for small skew: Cornish-Fisher start, then Newton steps on log sf (Temme)."""
     zn = -sc.ndtri(p)
     he2 = zn * zn - 1
-    k = zn + he2 * g / 6 + g * g * ((zn ** 3 - 3 * zn) / 24 * 1.5 - (2 * zn ** 3 - 5 * zn) / 36)
+    k = zn + he2 * g / 6 + g * g * ((zn**3 - 3 * zn) / 24 * 1.5 - (2 * zn**3 - 5 * zn) / 36)
     target = np.log(p)
     nz = np.abs(g) >= TINY_SKEW
     h = 1e-5
@@ -233,8 +233,10 @@ def _lp3_sf_grid(y, mean, sd, skew):
     small = np.abs(skew) < SMALL_SKEW
     finite = np.isfinite(y)
     yf = np.where(finite, y, 0.0)
-    for rows, fn in ((np.flatnonzero((skew > 0) & ~small), sc.gammaincc),
-                     (np.flatnonzero((skew < 0) & ~small), sc.gammainc)):
+    for rows, fn in (
+        (np.flatnonzero((skew > 0) & ~small), sc.gammaincc),
+        (np.flatnonzero((skew < 0) & ~small), sc.gammainc),
+    ):
         if rows.size == 0:
             continue
         g, m, s = skew[rows], mean[rows], sd[rows]
@@ -362,16 +364,25 @@ class Family:
 
 
 FAMILIES: dict[str, Family] = {
-    "lp3": Family("lp3", ("mean", "sd", "skew"), ("sd",), lp3_aep, lp3_quantile, True,
-                  "log-Pearson Type III of log10 quantity"),
-    "gev": Family("gev", ("location", "scale", "shape"), ("scale",), gev_aep, gev_quantile, False,
-                  "generalized extreme value, shape > 0 bounded above"),
-    "gumbel": Family("gumbel", ("location", "scale"), ("scale",), gumbel_aep, gumbel_quantile, False,
-                     "Gumbel (extreme value type I)"),
-    "lognormal": Family("lognormal", ("mean", "sd"), ("sd",), lognormal_aep, lognormal_quantile, True,
-                        "normal of log10 quantity"),
-    "normal": Family("normal", ("mean", "sd"), ("sd",), normal_aep, normal_quantile, False,
-                     "normal"),
+    "lp3": Family(
+        "lp3", ("mean", "sd", "skew"), ("sd",), lp3_aep, lp3_quantile, True, "log-Pearson Type III of log10 quantity"
+    ),
+    "gev": Family(
+        "gev",
+        ("location", "scale", "shape"),
+        ("scale",),
+        gev_aep,
+        gev_quantile,
+        False,
+        "generalized extreme value, shape > 0 bounded above",
+    ),
+    "gumbel": Family(
+        "gumbel", ("location", "scale"), ("scale",), gumbel_aep, gumbel_quantile, False, "Gumbel (extreme value type I)"
+    ),
+    "lognormal": Family(
+        "lognormal", ("mean", "sd"), ("sd",), lognormal_aep, lognormal_quantile, True, "normal of log10 quantity"
+    ),
+    "normal": Family("normal", ("mean", "sd"), ("sd",), normal_aep, normal_quantile, False, "normal"),
 }
 
 

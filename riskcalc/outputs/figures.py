@@ -16,13 +16,36 @@ import numpy as np  # noqa: E402
 from matplotlib.ticker import FixedLocator, NullLocator  # noqa: E402
 from scipy import special as sc  # noqa: E402
 
-from .labels import (HEADLINE_KEYS, currency_text, fmt_aep_axis, fmt_num, fmt_quantity, output_label,  # noqa: E402
-                     unit_text)
+from .labels import (
+    HEADLINE_KEYS,
+    currency_text,
+    fmt_aep_axis,
+    fmt_num,
+    fmt_quantity,
+    output_label,  # noqa: E402
+    unit_text,
+)
 
-__all__ = ["STYLE", "SERIES", "GUIDE", "FIGURE_STEMS", "save", "probability_axis", "plot_hazard",
-           "plot_aep_distribution", "plot_response", "plot_consequences", "plot_risk_distributions", "plot_fn",
-           "plot_contributions", "plot_sensitivity", "run_figures", "scenario_guidelines", "merged_chart_lines",
-           "short_source"]
+__all__ = [
+    "STYLE",
+    "SERIES",
+    "GUIDE",
+    "FIGURE_STEMS",
+    "save",
+    "probability_axis",
+    "plot_hazard",
+    "plot_aep_distribution",
+    "plot_response",
+    "plot_consequences",
+    "plot_risk_distributions",
+    "plot_fn",
+    "plot_contributions",
+    "plot_sensitivity",
+    "run_figures",
+    "scenario_guidelines",
+    "merged_chart_lines",
+    "short_source",
+]
 
 #: riskcalc's palette: distinct in hue and in lightness, so it also reads in greyscale.
 STYLE = {
@@ -39,10 +62,20 @@ _AEP_TICKS = [0.99, 0.9, 0.5, 0.1, 0.01, 1e-3, 1e-4, 1e-5, 1e-7]
 
 
 def _rc():
-    return {"legend.frameon": True, "legend.framealpha": 0.85, "legend.edgecolor": "none", "axes.axisbelow": True,
-            "font.size": 9, "axes.titlesize": 10, "axes.labelsize": 9, "legend.fontsize": 8,
-            "axes.spines.top": False, "axes.spines.right": False, "svg.hashsalt": "riskcalc",
-            "svg.fonttype": "none"}
+    return {
+        "legend.frameon": True,
+        "legend.framealpha": 0.85,
+        "legend.edgecolor": "none",
+        "axes.axisbelow": True,
+        "font.size": 9,
+        "axes.titlesize": 10,
+        "axes.labelsize": 9,
+        "legend.fontsize": 8,
+        "axes.spines.top": False,
+        "axes.spines.right": False,
+        "svg.hashsalt": "riskcalc",
+        "svg.fonttype": "none",
+    }
 
 
 def save(fig, path_stem) -> list[Path]:
@@ -100,9 +133,16 @@ def plot_hazard(curves, ens=None, path_stem=None, *, title="Hazard ensemble", ma
             for k, row in enumerate(qm):
                 ax.plot(xs, row, **STYLE["member"], label="ensemble members" if k == 0 else None)
         lo, hi = curves.band_names
-        ax.fill_between(xs, curves.quantity_lower, curves.quantity_upper, color=STYLE["band"]["color"],
-                        alpha=STYLE["band"]["alpha"], lw=0, zorder=3,
-                        label=f"{round(100 * curves.level)} % credible band ({lo}–{hi})")
+        ax.fill_between(
+            xs,
+            curves.quantity_lower,
+            curves.quantity_upper,
+            color=STYLE["band"]["color"],
+            alpha=STYLE["band"]["alpha"],
+            lw=0,
+            zorder=3,
+            label=f"{round(100 * curves.level)} % credible band ({lo}–{hi})",
+        )
         ax.plot(xs, curves.quantity_predictive, **STYLE["predictive"], label="predictive (mean AEP)", zorder=5)
         ax.plot(xs, curves.quantity_median, **STYLE["median"], label="median curve", zorder=5)
         ax.plot(xs, curves.quantity_mode, **STYLE["mode"], label="mode curve", zorder=5)
@@ -154,8 +194,16 @@ MARK = {
 }
 
 #: File stems written by :func:`run_figures`, in memo order.
-FIGURE_STEMS = ("hazard_ensemble", "aep_at_design_discharge", "response_curves", "consequence_curves",
-                "risk_distributions", "fn_chart", "risk_by_aep_band", "sensitivity_indices")
+FIGURE_STEMS = (
+    "hazard_ensemble",
+    "aep_at_design_discharge",
+    "response_curves",
+    "consequence_curves",
+    "risk_distributions",
+    "fn_chart",
+    "risk_by_aep_band",
+    "sensitivity_indices",
+)
 
 _SUP = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 
@@ -264,8 +312,9 @@ def _weighted_hist(ax, values, weights, *, log=True, bins=40, color="#9a9a9a", l
 
 def _vline(ax, x, key, label):
     st = STYLE[key] if key != "median" else STYLE["median"]
-    ax.axvline(x, color=st["color"], lw=st["lw"] + (0.4 if key == "predictive" else 0), ls=st["ls"], label=label,
-               zorder=5)
+    ax.axvline(
+        x, color=st["color"], lw=st["lw"] + (0.4 if key == "predictive" else 0), ls=st["ls"], label=label, zorder=5
+    )
 
 
 def plot_aep_distribution(result, path_stem=None):
@@ -282,16 +331,22 @@ def plot_aep_distribution(result, path_stem=None):
     with plt.rc_context(_rc()):
         fig, ax = plt.subplots(figsize=(7.0, 4.0))
         n_out, _ = _weighted_hist(ax, p, ens.weights, label=f"{ens.size} realizations (weighted)")
-        _vline(ax, crest["mode"]["aep_on_predictive"], "predictive",
-               f"mean (predictive) AEP {fmt_num(crest['mode']['aep_on_predictive'])}")
+        _vline(
+            ax,
+            crest["mode"]["aep_on_predictive"],
+            "predictive",
+            f"mean (predictive) AEP {fmt_num(crest['mode']['aep_on_predictive'])}",
+        )
         _vline(ax, crest["design_aep"], "mode", f"mode curve AEP {fmt_num(crest['design_aep'])}")
         p_med = float(result.curves.median.aep(np.array([x]))[0, 0])
         _vline(ax, p_med, "median", f"median curve AEP {fmt_num(p_med)}")
         ax.set_xlabel("annual exceedance probability of this flood under each realization [1/yr]")
         u = unit_text(ens.unit)
-        ax.set_title(f"AEP of {q} {fmt_quantity(x, q)} {u} "
-                     f"(the mode curve's {fmt_aep_axis(crest['design_aep'])}-AEP flood) "
-                     "across the ensemble")
+        ax.set_title(
+            f"AEP of {q} {fmt_quantity(x, q)} {u} "
+            f"(the mode curve's {fmt_aep_axis(crest['design_aep'])}-AEP flood) "
+            "across the ensemble"
+        )
         if n_out:
             ax.plot([], [], " ", label=f"({n_out} realization(s) with AEP 0 not shown)")
         ax.legend(loc="upper left")
@@ -321,15 +376,23 @@ def plot_response(result, path_stem=None):
         if q == "discharge":
             ax = axes[0]
             xq = df[qcol].to_numpy()
-            ax.plot(xq[plausible], stage[plausible], color=STYLE["predictive"]["color"], lw=1.8,
-                    label="rating curve")
+            ax.plot(xq[plausible], stage[plausible], color=STYLE["predictive"]["color"], lw=1.8, label="rating curve")
             top = result.extrapolation.get("rating_table_top")
             if top:
-                ax.axvline(top, color=GUIDE[1]["color"], ls=GUIDE[1]["ls"], lw=1.0,
-                           label=f"top of rating table ({fmt_quantity(top)} {unit_text(u['discharge'])}); "
-                           "extrapolated above")
-            ax.plot([crest["discharge"]], [crest["stage"]], ls="none", **MARK["mode"],
-                    label=f"mode curve's {fmt_aep_axis(result.crest['design_aep'])}-AEP flood")
+                ax.axvline(
+                    top,
+                    color=GUIDE[1]["color"],
+                    ls=GUIDE[1]["ls"],
+                    lw=1.0,
+                    label=f"top of rating table ({fmt_quantity(top)} {unit_text(u['discharge'])}); extrapolated above",
+                )
+            ax.plot(
+                [crest["discharge"]],
+                [crest["stage"]],
+                ls="none",
+                **MARK["mode"],
+                label=f"mode curve's {fmt_aep_axis(result.crest['design_aep'])}-AEP flood",
+            )
             log_axis(ax, "x")
             ax.set_xlabel(quantity_label("discharge", u["discharge"]))
             ax.set_ylabel(f"peak stage [{su}]")
@@ -342,16 +405,33 @@ def plot_response(result, path_stem=None):
         if len(modes) > 1:
             for i, name in enumerate(modes):
                 st = SERIES[i % len(SERIES)]
-                ax.plot(h, df[f"p_failure_{name.replace(' ', '_')}"].to_numpy()[plausible], color=st["color"],
-                        ls=st["ls"], lw=1.5, label=f"failure mode: {_t(name)}")
-            ax.plot(h, df["p_failure_lower_bound"].to_numpy()[plausible], color="#9a9a9a", lw=1.0,
-                    ls=(0, (1, 1)), label="lower bound maxᵢ Pᵢ (fully dependent failure modes)")
+                ax.plot(
+                    h,
+                    df[f"p_failure_{name.replace(' ', '_')}"].to_numpy()[plausible],
+                    color=st["color"],
+                    ls=st["ls"],
+                    lw=1.5,
+                    label=f"failure mode: {_t(name)}",
+                )
+            ax.plot(
+                h,
+                df["p_failure_lower_bound"].to_numpy()[plausible],
+                color="#9a9a9a",
+                lw=1.0,
+                ls=(0, (1, 1)),
+                label="lower bound maxᵢ Pᵢ (fully dependent failure modes)",
+            )
             sys_label = "system, independent failure modes 1 − Π(1 − Pᵢ)"
         else:
             sys_label = f"system (one mode: {_t(modes[0])})"
         ax.plot(h, df["p_failure_system"].to_numpy()[plausible], **STYLE["predictive"], label=sys_label)
-        ax.axvline(crest["stage"], color=MARK["mode"]["color"], lw=0.9, ls=(0, (4, 2)),
-                   label=f"stage of the mode curve's {fmt_aep_axis(result.crest['design_aep'])}-AEP flood")
+        ax.axvline(
+            crest["stage"],
+            color=MARK["mode"]["color"],
+            lw=0.9,
+            ls=(0, (4, 2)),
+            label=f"stage of the mode curve's {fmt_aep_axis(result.crest['design_aep'])}-AEP flood",
+        )
         ax.set_ylim(-0.02, 1.02)
         ax.set_xlabel(f"peak stage [{su}]")
         ax.set_ylabel("probability of failure given stage [-]")
@@ -404,11 +484,21 @@ def plot_consequences(result, path_stem=None):
             ax.grid(True, color=STYLE["grid"], lw=0.6)
             ax.legend(loc="upper left")
             ax.set_ylim(bottom=0)
-        txt = [f"{p.description.split(',')[0]} per draw" for p in sc.model.uncertain.parameters
-               if p.source == "consequences"]
+        txt = [
+            f"{p.description.split(',')[0]} per draw"
+            for p in sc.model.uncertain.parameters
+            if p.source == "consequences"
+        ]
         if txt:
-            fig.text(0.5, -0.02, "Points: consequence table rows; values held beyond its ends. Nominal curves; " + "; ".join(txt) + " (knowledge uncertainty).", ha="center",
-                     fontsize=7.5)
+            fig.text(
+                0.5,
+                -0.02,
+                "Points: consequence table rows; values held beyond its ends. Nominal curves; "
+                + "; ".join(txt)
+                + " (knowledge uncertainty).",
+                ha="center",
+                fontsize=7.5,
+            )
         fig.tight_layout()
         return fig if path_stem is None else save(fig, path_stem)
 
@@ -417,8 +507,7 @@ def plot_risk_distributions(result, path_stem=None):
     """AFP, EAD and ALL across the Monte Carlo draws (weighted histograms, log axes), predictive and mode marked."""
     prop = result.propagation
     cur = result.scenario.units["currency"]
-    panels = (("afp", "annual_failure_probability"), ("ead", "expected_annual_damage"),
-              ("all", "annualized_life_loss"))
+    panels = (("afp", "annual_failure_probability"), ("ead", "expected_annual_damage"), ("all", "annualized_life_loss"))
     with plt.rc_context(_rc()):
         fig, axes = plt.subplots(1, 3, figsize=(10.0, 4.0))
         for ax, (n, key) in zip(axes, panels):
@@ -428,8 +517,7 @@ def plot_risk_distributions(result, path_stem=None):
             e = h["ensemble"]
             n_out, _ = _weighted_hist(ax, prop.column(n), prop.weights)
             if e["p95"] > 0 and e["p05"] > 0:
-                ax.axvspan(e["p05"], e["p95"], color=STYLE["band"]["color"], alpha=0.25, lw=0,
-                           label="5–95 % of draws")
+                ax.axvspan(e["p05"], e["p95"], color=STYLE["band"]["color"], alpha=0.25, lw=0, label="5–95 % of draws")
             if h["predictive"] > 0:
                 _vline(ax, h["predictive"], "predictive", f"predictive {fmt(h['predictive'])}")
             if h["mode"] > 0:
@@ -475,11 +563,21 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
         # --- F-N
         xmax = max(N.max() * 3, 100.0)
         if "p05" in fn:
-            a1.fill_between(N, np.maximum(fn["p05"], 1e-300), np.maximum(fn["p95"], 1e-300), step="post",
-                            color=STYLE["band"]["color"], alpha=STYLE["band"]["alpha"], lw=0,
-                            label="5–95 % of realizations")
-        for key, lab, st in (("predictive", "predictive", STYLE["predictive"]), ("mode", "mode curve", STYLE["mode"]),
-                             ("median_curve", "median curve", STYLE["median"])):
+            a1.fill_between(
+                N,
+                np.maximum(fn["p05"], 1e-300),
+                np.maximum(fn["p95"], 1e-300),
+                step="post",
+                color=STYLE["band"]["color"],
+                alpha=STYLE["band"]["alpha"],
+                lw=0,
+                label="5–95 % of realizations",
+            )
+        for key, lab, st in (
+            ("predictive", "predictive", STYLE["predictive"]),
+            ("mode", "mode curve", STYLE["mode"]),
+            ("median_curve", "median curve", STYLE["median"]),
+        ):
             f = np.asarray(fn[key], float)
             a1.step(N, np.where(f > 0, f, np.nan), where="post", label=lab, **st, zorder=5)
         positive = [np.asarray(fn[k])[np.asarray(fn[k]) > 0] for k in ("predictive", "mode", "p05") if k in fn]
@@ -516,16 +614,26 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
             w = prop.weights[idx] / prop.weights[idx].sum()
             idx = np.sort(rng.choice(idx, max_points, replace=False, p=w))
         if idx.size:
-            a2.scatter(al[idx] / af[idx], af[idx], s=4, color="#b8b8b8", lw=0, alpha=0.6,
-                       label=f"draws ({idx.size:,} shown)", zorder=2)
+            a2.scatter(
+                al[idx] / af[idx],
+                af[idx],
+                s=4,
+                color="#b8b8b8",
+                lw=0,
+                alpha=0.6,
+                label=f"draws ({idx.size:,} shown)",
+                zorder=2,
+            )
         pts = []
         vp, vm, vmed = result.values_predictive, result.values_mode, result.values_median
-        for v, key, lab in ((vp, "predictive", "predictive"), (vm, "mode", "mode curve"),
-                            (vmed, "median", "median curve")):
+        for v, key, lab in (
+            (vp, "predictive", "predictive"),
+            (vm, "mode", "mode curve"),
+            (vmed, "median", "median curve"),
+        ):
             if v["afp"] > 0 and v["all_incremental"] > 0:
                 pts.append((v["all_incremental"] / v["afp"], v["afp"]))
-                a2.plot([pts[-1][0]], [pts[-1][1]], ls="none", mec="white", mew=0.6, **MARK[key], label=lab,
-                        zorder=6)
+                a2.plot([pts[-1][0]], [pts[-1][1]], ls="none", mec="white", mew=0.6, **MARK[key], label=lab, zorder=6)
         allx = np.r_[[p[0] for p in pts], al[idx] / af[idx] if idx.size else []]
         ally = np.r_[[p[1] for p in pts], af[idx] if idx.size else []]
         x0 = 10 ** np.floor(np.log10(allx.min())) if allx.size else 0.1
@@ -552,13 +660,22 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
         a2.grid(True, which="major", color=STYLE["grid"], lw=0.6)
         _legend_below(a2)
         fig.tight_layout()
-        which = {"dam": "display defaults for a dam from published guidance",
-                 "levee": "display defaults for a levee from published guidance (USACE only)",
-                 }.get(structure, "display defaults for a dam from published guidance (structure kind not given)")
+        which = {
+            "dam": "display defaults for a dam from published guidance",
+            "levee": "display defaults for a levee from published guidance (USACE only)",
+        }.get(structure, "display defaults for a dam from published guidance (structure kind not given)")
         if origin != "defaults":
             which = "the scenario's [guidelines]"
-        fig.text(0.5, 1.0, f"Reference lines: {which}; the governing agency's current policy decides which lines "
-                 "apply. Individual risk is not assessed.", ha="center", va="bottom", fontsize=7.5, color="#444444")
+        fig.text(
+            0.5,
+            1.0,
+            f"Reference lines: {which}; the governing agency's current policy decides which lines "
+            "apply. Individual risk is not assessed.",
+            ha="center",
+            va="bottom",
+            fontsize=7.5,
+            color="#444444",
+        )
         return fig if path_stem is None else save(fig, path_stem)
 
 
@@ -593,8 +710,16 @@ def plot_contributions(result, path_stem=None):
             tot = v.sum()
             share = 100 * v / tot if tot > 0 else np.zeros_like(v)
             st = BARS[i]
-            ax.bar(x + (i - 1) * wbar, share, wbar, color=st["color"], hatch=st["hatch"], edgecolor="#555555",
-                   lw=0.5, label=name + ("" if tot > 0 else " (zero)"))
+            ax.bar(
+                x + (i - 1) * wbar,
+                share,
+                wbar,
+                color=st["color"],
+                hatch=st["hatch"],
+                edgecolor="#555555",
+                lw=0.5,
+                label=name + ("" if tot > 0 else " (zero)"),
+            )
         ax.set_xticks(x)
         ax.set_xticklabels(labels)
         ax.set_xlabel("AEP band of the predictive curve (floods in this range of annual exceedance probability)")
@@ -625,6 +750,7 @@ def plot_sensitivity(sensitivity, path_stem=None, *, panel_notes=None, top=12):
     outs = [k for k, v in (sensitivity or {}).items() if isinstance(v, dict) and v]
     if not outs:
         return None
+
     def short(o):
         try:
             return output_label(o).short
@@ -644,11 +770,27 @@ def plot_sensitivity(sensitivity, path_stem=None, *, panel_notes=None, top=12):
             s1, s1_c = col(d, factors, "S1"), col(d, factors, "S1_conf")
             idx = np.argsort(-np.nan_to_num(st, nan=-np.inf), kind="stable")[:top][::-1]
             y = np.arange(idx.size)
-            ax.barh(y, np.nan_to_num(st[idx]), xerr=np.nan_to_num(st_c[idx]), color=STYLE["band"]["color"],
-                    edgecolor=STYLE["predictive"]["color"], lw=0.5, error_kw={"lw": 0.8, "capsize": 2},
-                    label="total ST")
-            ax.errorbar(np.nan_to_num(s1[idx]), y, xerr=np.nan_to_num(s1_c[idx]), fmt="o", ms=4,
-                        color=STYLE["accent"], lw=0.8, capsize=2, label="first order S1")
+            ax.barh(
+                y,
+                np.nan_to_num(st[idx]),
+                xerr=np.nan_to_num(st_c[idx]),
+                color=STYLE["band"]["color"],
+                edgecolor=STYLE["predictive"]["color"],
+                lw=0.5,
+                error_kw={"lw": 0.8, "capsize": 2},
+                label="total ST",
+            )
+            ax.errorbar(
+                np.nan_to_num(s1[idx]),
+                y,
+                xerr=np.nan_to_num(s1_c[idx]),
+                fmt="o",
+                ms=4,
+                color=STYLE["accent"],
+                lw=0.8,
+                capsize=2,
+                label="first order S1",
+            )
             ax.set_yticks(y)
             ax.set_yticklabels([_t(factors[i]) for i in idx], fontsize=8)
             ax.axvline(0, color=STYLE["predictive"]["color"], lw=0.6)
@@ -659,8 +801,9 @@ def plot_sensitivity(sensitivity, path_stem=None, *, panel_notes=None, top=12):
             ax.set_title(_t(short(o) + (f" ({note})" if note else "")), fontsize=9)
             ax.grid(True, axis="x", color=STYLE["grid"], lw=0.6)
         axes[0][0].legend(loc="lower right", frameon=False)
-        fig.suptitle("What drives the risk: Sobol indices, ranked by total effect (bars: confidence intervals)",
-                     fontsize=10)
+        fig.suptitle(
+            "What drives the risk: Sobol indices, ranked by total effect (bars: confidence intervals)", fontsize=10
+        )
         fig.tight_layout()
         return fig if path_stem is None else save(fig, path_stem)
 
@@ -674,8 +817,12 @@ def run_figures(result, folder):
     """
     folder = Path(folder)
     sc = result.scenario
-    paths = plot_hazard(result.curves, sc.ensemble, folder / "hazard_ensemble",
-                        title=f"{_t(sc.title)}: hazard ensemble ({sc.ensemble.size} realizations)")
+    paths = plot_hazard(
+        result.curves,
+        sc.ensemble,
+        folder / "hazard_ensemble",
+        title=f"{_t(sc.title)}: hazard ensemble ({sc.ensemble.size} realizations)",
+    )
     paths += plot_aep_distribution(result, folder / "aep_at_design_discharge")
     paths += plot_response(result, folder / "response_curves")
     paths += plot_consequences(result, folder / "consequence_curves")

@@ -23,9 +23,28 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-__all__ = ["CAUTION", "CAUTION_SHORT", "caution_line", "UNIT_TEXT", "unit_text", "currency_text", "OutputLabel",
-           "OUTPUTS", "HEADLINE_KEYS", "output_label", "fmt_num", "fmt_money", "fmt_value", "fmt_ratio",
-           "fmt_index", "fmt_percent", "fmt_return_period", "fmt_aep", "fmt_aep_axis", "fmt_quantity"]
+__all__ = [
+    "CAUTION",
+    "CAUTION_SHORT",
+    "caution_line",
+    "UNIT_TEXT",
+    "unit_text",
+    "currency_text",
+    "OutputLabel",
+    "OUTPUTS",
+    "HEADLINE_KEYS",
+    "output_label",
+    "fmt_num",
+    "fmt_money",
+    "fmt_value",
+    "fmt_ratio",
+    "fmt_index",
+    "fmt_percent",
+    "fmt_return_period",
+    "fmt_aep",
+    "fmt_aep_axis",
+    "fmt_quantity",
+]
 
 # --------------------------------------------------------------------------
 # The caution
@@ -35,9 +54,11 @@ _DECIDES = "the governing agency's current policy and local codes decide"
 
 #: The caution every output carries (summary.json, sensitivity.json, comparison.json, the memo, comparison.md
 #: and the run summary of the command line). Plain text: no character that Markdown or HTML would change.
-CAUTION = (f"These results are screening support for {_WHO}; they support, and never replace, their judgment. "
-           "The tolerable-risk lines are defaults from published guidance (or the lines the scenario gives): "
-           f"{_DECIDES} which apply. The results are only as good as the inputs and the failure modes considered.")
+CAUTION = (
+    f"These results are screening support for {_WHO}; they support, and never replace, their judgment. "
+    "The tolerable-risk lines are defaults from published guidance (or the lines the scenario gives): "
+    f"{_DECIDES} which apply. The results are only as good as the inputs and the failure modes considered."
+)
 
 #: The same caution in one line, for the command line's help and the steps that draw no tolerable-risk lines.
 CAUTION_SHORT = f"Screening support for {_WHO}; {_DECIDES}. Results are only as good as the inputs."
@@ -115,29 +136,55 @@ def _o(key, short, name, unit, kind):
 
 
 #: Every named output, by summary.json key (the three headline figures first).
-OUTPUTS = dict((
-    _o("annual_failure_probability", "AFP", "annual failure probability", "1/yr", "probability"),
-    _o("expected_annual_damage", "EAD", "expected annual damage", "{currency}/yr", "money"),
-    _o("annualized_life_loss", "ALL", "annualized life loss", "lives/yr", "lives"),
-    _o("expected_annual_damage_incremental", "EAD inc.", "incremental expected annual damage (caused by failure)",
-       "{currency}/yr", "money"),
-    _o("annualized_life_loss_incremental", "ALL inc.", "incremental annualized life loss (caused by failure)",
-       "lives/yr", "lives"),
-    _o("annual_failure_probability_lower_bound", "AFP lower bound",
-       "annual failure probability, fully dependent failure modes", "1/yr", "probability"),
-    _o("annual_failure_probability_upper_bound", "AFP upper bound",
-       "annual failure probability, mutually exclusive failure modes", "1/yr", "probability"),
-))
+OUTPUTS = dict(
+    (
+        _o("annual_failure_probability", "AFP", "annual failure probability", "1/yr", "probability"),
+        _o("expected_annual_damage", "EAD", "expected annual damage", "{currency}/yr", "money"),
+        _o("annualized_life_loss", "ALL", "annualized life loss", "lives/yr", "lives"),
+        _o(
+            "expected_annual_damage_incremental",
+            "EAD inc.",
+            "incremental expected annual damage (caused by failure)",
+            "{currency}/yr",
+            "money",
+        ),
+        _o(
+            "annualized_life_loss_incremental",
+            "ALL inc.",
+            "incremental annualized life loss (caused by failure)",
+            "lives/yr",
+            "lives",
+        ),
+        _o(
+            "annual_failure_probability_lower_bound",
+            "AFP lower bound",
+            "annual failure probability, fully dependent failure modes",
+            "1/yr",
+            "probability",
+        ),
+        _o(
+            "annual_failure_probability_upper_bound",
+            "AFP upper bound",
+            "annual failure probability, mutually exclusive failure modes",
+            "1/yr",
+            "probability",
+        ),
+    )
+)
 
 #: The headline figures of summary.json, in report order.
 HEADLINE_KEYS = ("annual_failure_probability", "expected_annual_damage", "annualized_life_loss")
 
 #: Integrand names of the risk chain (the per-draw columns) -> summary.json keys.
-_INTEGRANDS = {"afp": "annual_failure_probability", "ead": "expected_annual_damage", "all": "annualized_life_loss",
-               "ead_incremental": "expected_annual_damage_incremental",
-               "all_incremental": "annualized_life_loss_incremental",
-               "afp_lower_bound": "annual_failure_probability_lower_bound",
-               "afp_upper_bound": "annual_failure_probability_upper_bound"}
+_INTEGRANDS = {
+    "afp": "annual_failure_probability",
+    "ead": "expected_annual_damage",
+    "all": "annualized_life_loss",
+    "ead_incremental": "expected_annual_damage_incremental",
+    "all_incremental": "annualized_life_loss_incremental",
+    "afp_lower_bound": "annual_failure_probability_lower_bound",
+    "afp_upper_bound": "annual_failure_probability_upper_bound",
+}
 
 _FM_PREFIX = "afp_fm:"
 _FM_ADJ_PREFIX = "afp_fm_adjusted:"
@@ -153,14 +200,17 @@ def output_label(key: str) -> OutputLabel:
         For a key that names no output.
     """
     if key.startswith(_FM_PREFIX):
-        fm = key[len(_FM_PREFIX):]
-        return OutputLabel(key, f"AFP {fm}", f"annual failure probability, failure mode {fm}", "1/yr",
-                           "probability")
+        fm = key[len(_FM_PREFIX) :]
+        return OutputLabel(key, f"AFP {fm}", f"annual failure probability, failure mode {fm}", "1/yr", "probability")
     if key.startswith(_FM_ADJ_PREFIX):
-        fm = key[len(_FM_ADJ_PREFIX):]
-        return OutputLabel(key, f"AFP {fm} (adjusted)",
-                           f"annual failure probability, failure mode {fm}, common-cause adjusted", "1/yr",
-                           "probability")
+        fm = key[len(_FM_ADJ_PREFIX) :]
+        return OutputLabel(
+            key,
+            f"AFP {fm} (adjusted)",
+            f"annual failure probability, failure mode {fm}, common-cause adjusted",
+            "1/yr",
+            "probability",
+        )
     return OUTPUTS[_INTEGRANDS.get(key, key)]
 
 
@@ -257,7 +307,7 @@ def fmt_aep_axis(p) -> str:
     if p >= 0.01:
         return f"{p:g}"
     e = round(math.log10(p))
-    return f"1e{e}" if math.isclose(p, 10.0 ** e) else f"{p:.1e}"
+    return f"1e{e}" if math.isclose(p, 10.0**e) else f"{p:.1e}"
 
 
 def fmt_quantity(v, quantity: str = "discharge") -> str:

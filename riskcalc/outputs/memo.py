@@ -39,26 +39,48 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from .labels import (CAUTION, HEADLINE_KEYS, fmt_aep, fmt_index, fmt_num, fmt_percent,
-                     fmt_quantity, fmt_ratio, fmt_return_period, output_label, unit_text)
+from .labels import (
+    CAUTION,
+    HEADLINE_KEYS,
+    fmt_aep,
+    fmt_index,
+    fmt_num,
+    fmt_percent,
+    fmt_quantity,
+    fmt_ratio,
+    fmt_return_period,
+    output_label,
+    unit_text,
+)
 
-__all__ = ["write_memo", "rebuild_memo", "tolerable_risk_table", "mode_words", "render_memo", "Block", "Section",
-           "blocks_markdown", "blocks_html", "section_to_dict", "section_from_dict"]
+__all__ = [
+    "write_memo",
+    "rebuild_memo",
+    "tolerable_risk_table",
+    "mode_words",
+    "render_memo",
+    "Block",
+    "Section",
+    "blocks_markdown",
+    "blocks_html",
+    "section_to_dict",
+    "section_from_dict",
+]
 
 #: Captions of the run figures, by file stem (in memo order).
 FIGURE_CAPTIONS = {
     "hazard_ensemble": "Hazard ensemble on probability paper: members (grey), the predictive curve (mean AEP at "
-                       "fixed discharge), the mode and median curves and the credible band.",
+    "fixed discharge), the mode and median curves and the credible band.",
     "aep_at_design_discharge": "Annual exceedance probability of one flood, the mode curve's design flood, under "
-                               "every realization. Their weighted mean is the predictive AEP of that flood.",
+    "every realization. Their weighted mean is the predictive AEP of that flood.",
     "response_curves": "Rating (peak stage against peak discharge) and system response (probability of failure "
-                       "given stage, per failure mode and for the system).",
+    "given stage, per failure mode and for the system).",
     "consequence_curves": "Consequences against peak stage: damage and life loss given breach and given no breach.",
     "risk_distributions": "AFP, EAD and ALL of every Monte Carlo draw (weighted), with the predictive value and the "
-                          "mode-curve value marked.",
+    "mode-curve value marked.",
     "fn_chart": "F-N curve (annual probability of N or more fatalities) and f-N point against the reference lines.",
     "risk_by_aep_band": "Where the risk comes from: share of the predictive AFP, EAD and ALL from floods in each AEP "
-                        "band.",
+    "band.",
     "sensitivity_indices": "Sobol first-order and total sensitivity indices with their confidence intervals.",
 }
 
@@ -141,18 +163,31 @@ def section_from_dict(d, path=None) -> Section:
         When ``d`` is not a section (``path`` names the file in the message).
     """
     if not isinstance(d, dict) or not isinstance(d.get("blocks"), list):
-        raise InputError("holds a memo section without blocks; expected the memo_sections.json of this riskcalc "
-                         "version (rerun the scenario)", path)
+        raise InputError(
+            "holds a memo section without blocks; expected the memo_sections.json of this riskcalc "
+            "version (rerun the scenario)",
+            path,
+        )
     blocks = []
     for k, b in enumerate(d["blocks"], 1):
         if not isinstance(b, dict) or b.get("kind") not in BLOCK_KINDS:
             kind = b.get("kind") if isinstance(b, dict) else b
-            raise InputError(f"block {k} of section {d.get('title', '')!r} has kind {kind!r}; expected one of "
-                             f"{', '.join(BLOCK_KINDS)}", path)
-        blocks.append(Block(b["kind"], text=str(b.get("text", "")), css=str(b.get("css", "")),
-                            figure=str(b.get("figure", "")), header=tuple(str(c) for c in b.get("header", ())),
-                            rows=tuple(tuple(str(c) for c in r) for r in b.get("rows", ())),
-                            items=tuple(str(i) for i in b.get("items", ()))))
+            raise InputError(
+                f"block {k} of section {d.get('title', '')!r} has kind {kind!r}; expected one of "
+                f"{', '.join(BLOCK_KINDS)}",
+                path,
+            )
+        blocks.append(
+            Block(
+                b["kind"],
+                text=str(b.get("text", "")),
+                css=str(b.get("css", "")),
+                figure=str(b.get("figure", "")),
+                header=tuple(str(c) for c in b.get("header", ())),
+                rows=tuple(tuple(str(c) for c in r) for r in b.get("rows", ())),
+                items=tuple(str(i) for i in b.get("items", ())),
+            )
+        )
     title = str(d.get("title", ""))
     return Section(title, str(d.get("anchor", "")) or _slug(title), tuple(blocks), bool(d.get("new_page", True)))
 
@@ -234,8 +269,7 @@ def _html_block(b: Block) -> str:
         num = _numeric_columns(b)
         cls = [' class="n"' if n else "" for n in num]
         head = "".join(f"<th{k}>{_h(c)}</th>" for k, c in zip(cls, b.header))
-        body = "\n".join("<tr>" + "".join(f"<td{k}>{_h(c)}</td>" for k, c in zip(cls, r)) + "</tr>"
-                         for r in b.rows)
+        body = "\n".join("<tr>" + "".join(f"<td{k}>{_h(c)}</td>" for k, c in zip(cls, r)) + "</tr>" for r in b.rows)
         return f'<table class="{_h(b.css)}">\n<thead><tr>{head}</tr></thead>\n<tbody>\n{body}\n</tbody>\n</table>'
     cap = _caption(b)  # figure
     # embedded in the memo; elsewhere (comparison.md's fragment) a link to the file beside it, as in Markdown
@@ -309,8 +343,11 @@ def render_memo(title: str, subtitle: str, sections) -> tuple[str, str]:
     body = []
     for k, s in enumerate(sections, 1):
         cls = "page" if (s.new_page and k > 1) else "first"
-        body.append(f'<section id="{_h(s.anchor)}" class="{cls}">\n<h2>{k}. {_h(s.title)}</h2>\n' +
-                    blocks_html(s.blocks) + "\n</section>")
+        body.append(
+            f'<section id="{_h(s.anchor)}" class="{cls}">\n<h2>{k}. {_h(s.title)}</h2>\n'
+            + blocks_html(s.blocks)
+            + "\n</section>"
+        )
     page = f"""<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -340,10 +377,26 @@ def render_memo(title: str, subtitle: str, sections) -> tuple[str, str]:
 # Tolerable-risk comparison (written at run time from the result)
 # --------------------------------------------------------------------------
 #: Columns of tables/tolerable_risk.csv (the first eleven as before; the rest added with the confidence).
-TOLERABLE_COLUMNS = ["reference_line", "source", "kind", "definition", "compared_with", "curve", "computed_per_yr",
-                     "limit_per_yr", "ratio", "exceeds", "n_lives", "position", "share_of_draws_above",
-                     "share_of_draws_below", "share_of_draws_not_applicable", "draws_basis", "structure",
-                     "lines_from"]
+TOLERABLE_COLUMNS = [
+    "reference_line",
+    "source",
+    "kind",
+    "definition",
+    "compared_with",
+    "curve",
+    "computed_per_yr",
+    "limit_per_yr",
+    "ratio",
+    "exceeds",
+    "n_lives",
+    "position",
+    "share_of_draws_above",
+    "share_of_draws_below",
+    "share_of_draws_not_applicable",
+    "draws_basis",
+    "structure",
+    "lines_from",
+]
 
 
 def tolerable_risk_table(result, guidelines=None):
@@ -372,25 +425,51 @@ def tolerable_risk_table(result, guidelines=None):
     ref = reference_checks(result, guidelines)
     rows = []
     for c in ref["lines"]:
-        base = {"reference_line": c["line"], "source": c["source"], "kind": c["kind_text"],
-                "definition": c["definition"], "structure": ref["structure"], "lines_from": ref["lines_from"]}
+        base = {
+            "reference_line": c["line"],
+            "source": c["source"],
+            "kind": c["kind_text"],
+            "definition": c["definition"],
+            "structure": ref["structure"],
+            "lines_from": ref["lines_from"],
+        }
         if c["kind"] == "individual_risk":
-            rows.append({**base, "compared_with": c["compared_with"], "curve": "", "computed_per_yr": np.nan,
-                         "limit_per_yr": c["predictive"]["limit_per_yr"], "ratio": np.nan, "exceeds": "",
-                         "n_lives": np.nan, "position": "not assessed"})
+            rows.append(
+                {
+                    **base,
+                    "compared_with": c["compared_with"],
+                    "curve": "",
+                    "computed_per_yr": np.nan,
+                    "limit_per_yr": c["predictive"]["limit_per_yr"],
+                    "ratio": np.nan,
+                    "exceeds": "",
+                    "n_lives": np.nan,
+                    "position": "not assessed",
+                }
+            )
             continue
         for curve in ("predictive", "mode"):
             v = c[curve]
             ratio = np.nan if v["ratio"] is None else v["ratio"]
-            row = {**base, "compared_with": c["compared_with"], "curve": curve,
-                   "computed_per_yr": np.nan if v["computed_per_yr"] is None else v["computed_per_yr"],
-                   "limit_per_yr": np.nan if v["limit_per_yr"] is None else v["limit_per_yr"], "ratio": ratio,
-                   "exceeds": "" if not math.isfinite(ratio) else ("yes" if ratio > 1 else "no"),
-                   "n_lives": np.nan if v["n_lives"] is None else v["n_lives"], "position": v["position"]}
+            row = {
+                **base,
+                "compared_with": c["compared_with"],
+                "curve": curve,
+                "computed_per_yr": np.nan if v["computed_per_yr"] is None else v["computed_per_yr"],
+                "limit_per_yr": np.nan if v["limit_per_yr"] is None else v["limit_per_yr"],
+                "ratio": ratio,
+                "exceeds": "" if not math.isfinite(ratio) else ("yes" if ratio > 1 else "no"),
+                "n_lives": np.nan if v["n_lives"] is None else v["n_lives"],
+                "position": v["position"],
+            }
             d = c["draws"]
             if curve == "predictive" and d is not None:
-                row.update(share_of_draws_above=d["share_above"], share_of_draws_below=d["share_below"],
-                           share_of_draws_not_applicable=d["share_not_applicable"], draws_basis=d["basis"])
+                row.update(
+                    share_of_draws_above=d["share_above"],
+                    share_of_draws_below=d["share_below"],
+                    share_of_draws_not_applicable=d["share_not_applicable"],
+                    draws_basis=d["basis"],
+                )
             rows.append(row)
     return pd.DataFrame(rows, columns=TOLERABLE_COLUMNS)
 
@@ -415,8 +494,10 @@ def write_memo(result, outdir) -> list[Path]:
     write_csv(outdir / "tables" / TOLERABLE_TABLE, tolerable_risk_table(result))
     extra = list((getattr(result, "extras", None) or {}).get("memo_sections", []) or [])
     if extra:
-        write_json(outdir / MEMO_SECTIONS_FILE, [section_to_dict(s if isinstance(s, Section) else
-                                                                 section_from_dict(s)) for s in extra])
+        write_json(
+            outdir / MEMO_SECTIONS_FILE,
+            [section_to_dict(s if isinstance(s, Section) else section_from_dict(s)) for s in extra],
+        )
     return rebuild_memo(outdir)
 
 
@@ -455,16 +536,14 @@ def rebuild_memo(outdir) -> list[Path]:
     if not outdir.is_dir():
         raise InputError("is not a directory; expected the output directory of `riskcalc run`", outdir)
     if not sp.exists():
-        raise InputError("summary.json not found; expected the output directory of a finished `riskcalc run`",
-                         outdir)
+        raise InputError("summary.json not found; expected the output directory of a finished `riskcalc run`", outdir)
     try:
         summary = json.loads(sp.read_text(encoding="utf-8"))
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise InputError(f"is not valid JSON ({exc})", sp) from None
     for key in HEADLINE_KEYS:
         if not isinstance(summary.get(key), dict):
-            raise InputError("missing headline figure; expected a summary.json written by `riskcalc run`", sp,
-                             key=key)
+            raise InputError("missing headline figure; expected a summary.json written by `riskcalc run`", sp, key=key)
     extra = []
     xp = outdir / MEMO_SECTIONS_FILE
     if xp.exists():
@@ -502,8 +581,7 @@ def mode_words(notes) -> str:
     if "weighted mean parameters" in note:
         return "the mode curve (here the curve at the weighted mean parameters: the ensemble has no log_posterior)"
     if "closest to the median curve" in note:
-        return ("the mode curve (here the member closest to the median curve: the ensemble has no "
-                "log_posterior)")
+        return "the mode curve (here the member closest to the median curve: the ensemble has no log_posterior)"
     if "explicit parameters" in note:
         return "the mode curve (the scenario's explicit mode parameters)"
     if "largest log_posterior" in note:
@@ -521,8 +599,10 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     var_unit = unit_text(units.get("discharge" if var == "discharge" else "stage"))
     stage_unit = unit_text(units.get("stage"))
     title = f"Decision memo: {summary.get('title', 'untitled scenario')}"
-    subtitle = (f"Run of {prov.get('date', 'unknown date')} with riskcalc {prov.get('riskcalc_version', '?')}; "
-                f"scenario file {prov.get('scenario', '?')}; {settings.get('realizations', '?')} hazard realizations.")
+    subtitle = (
+        f"Run of {prov.get('date', 'unknown date')} with riskcalc {prov.get('riskcalc_version', '?')}; "
+        f"scenario file {prov.get('scenario', '?')}; {settings.get('realizations', '?')} hazard realizations."
+    )
     sections = []
     extra_figs = {f for s in extra for f in s.figures}
 
@@ -534,40 +614,89 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     for key in HEADLINE_KEYS:
         o, h = output_label(key), summary[key]
         e = h.get("ensemble", {}) or {}
-        rows.append((o.text(cur), *(o.fmt(v) for v in (h.get("predictive"), h.get("mode"), h.get("median_curve"),
-                                                       e.get("p05"), e.get("p50"), e.get("p95"))),
-                     fmt_ratio(h.get("ratio_predictive_to_mode"))))
-    blocks = [Block("caution", CAUTION),
-              Block("table", header=("measure", "predictive", "mode curve", "median curve", "ensemble 5\u00a0%",
-                                     "ensemble 50\u00a0%", "ensemble 95\u00a0%", "predictive / mode"),
-                    rows=tuple(rows), css="headline")]
+        rows.append(
+            (
+                o.text(cur),
+                *(
+                    o.fmt(v)
+                    for v in (
+                        h.get("predictive"),
+                        h.get("mode"),
+                        h.get("median_curve"),
+                        e.get("p05"),
+                        e.get("p50"),
+                        e.get("p95"),
+                    )
+                ),
+                fmt_ratio(h.get("ratio_predictive_to_mode")),
+            )
+        )
+    blocks = [
+        Block("caution", CAUTION),
+        Block(
+            "table",
+            header=(
+                "measure",
+                "predictive",
+                "mode curve",
+                "median curve",
+                "ensemble 5\u00a0%",
+                "ensemble 50\u00a0%",
+                "ensemble 95\u00a0%",
+                "predictive / mode",
+            ),
+            rows=tuple(rows),
+            css="headline",
+        ),
+    ]
     afp = summary["annual_failure_probability"]
     r_afp = afp.get("ratio_predictive_to_mode")
     crest = (summary.get("mode_understatement", {}) or {}).get("crest_check", {}) or {}
     m = crest.get("mode", {}) or {}
     p_d, years = crest.get("design_aep"), crest.get("years")
     if r_afp is not None and math.isfinite(r_afp) and m.get("aep_on_predictive"):
-        word = ("understates" if r_afp > 1.05 else "overstates" if r_afp < 0.95 else "matches, within 5 %,")
-        blocks.append(Block("p", (
-            f"What the ratio means: {mode_words(summary.get('notes'))} {word} the annual failure probability "
-            f"(predictive / mode = {fmt_ratio(r_afp)}). A crest set at the mode curve's {fmt_aep(p_d)} stage "
-            f"({fmt_quantity(m.get('stage'), 'stage')} {stage_unit}) is exceeded on average about once in "
-            f"{fmt_return_period(m['aep_on_predictive'])} years on the predictive curve, not once in "
-            f"{fmt_return_period(p_d)}: the chance of at least one exceedance in {years} years is "
-            f"{fmt_percent(m.get('chance_in_years_predictive', 0))}, not "
-            f"{fmt_percent(m.get('chance_in_years_nominal', 0))}.")))
+        word = "understates" if r_afp > 1.05 else "overstates" if r_afp < 0.95 else "matches, within 5 %,"
+        blocks.append(
+            Block(
+                "p",
+                (
+                    f"What the ratio means: {mode_words(summary.get('notes'))} {word} the annual failure probability "
+                    f"(predictive / mode = {fmt_ratio(r_afp)}). A crest set at the mode curve's {fmt_aep(p_d)} stage "
+                    f"({fmt_quantity(m.get('stage'), 'stage')} {stage_unit}) is exceeded on average about once in "
+                    f"{fmt_return_period(m['aep_on_predictive'])} years on the predictive curve, not once in "
+                    f"{fmt_return_period(p_d)}: the chance of at least one exceedance in {years} years is "
+                    f"{fmt_percent(m.get('chance_in_years_predictive', 0))}, not "
+                    f"{fmt_percent(m.get('chance_in_years_nominal', 0))}."
+                ),
+            )
+        )
     r_h = afp.get("ratio_hazard_only")
     if r_h is not None and r_afp is not None and abs(r_h - r_afp) > 1e-9 * abs(r_afp):
-        blocks.append(Block("p", f"Of the AFP ratio {fmt_ratio(r_afp)}, the hazard ensemble alone (nominal response) "
-                                 f"gives {fmt_ratio(r_h)}; the rest comes from the sampled uncertainty of the response "
-                                 "and consequences, which the mode-curve analysis leaves out as well."))
-    blocks.append(Block("p", "Linearity: the predictive result is the mean of the per-realization results (the "
-                             "weighted mean over the ensemble), which is why the risk is integrated against the "
-                             "predictive (mean) hazard curve and not the mode curve."))
+        blocks.append(
+            Block(
+                "p",
+                f"Of the AFP ratio {fmt_ratio(r_afp)}, the hazard ensemble alone (nominal response) "
+                f"gives {fmt_ratio(r_h)}; the rest comes from the sampled uncertainty of the response "
+                "and consequences, which the mode-curve analysis leaves out as well.",
+            )
+        )
+    blocks.append(
+        Block(
+            "p",
+            "Linearity: the predictive result is the mean of the per-realization results (the "
+            "weighted mean over the ensemble), which is why the risk is integrated against the "
+            "predictive (mean) hazard curve and not the mode curve.",
+        )
+    )
     se = afp.get("mc_standard_error")
     if se is not None and afp.get("predictive"):
-        blocks.append(Block("p", f"Monte Carlo standard error of the predictive AFP: {fmt_num(se)} per year "
-                                 f"({fmt_percent(se / afp['predictive'], decimals=1)} of the value)."))
+        blocks.append(
+            Block(
+                "p",
+                f"Monte Carlo standard error of the predictive AFP: {fmt_num(se)} per year "
+                f"({fmt_percent(se / afp['predictive'], decimals=1)} of the value).",
+            )
+        )
     sections.append(Section("Headline results", "headline", tuple(blocks), new_page=False))
 
     # 2. figures -------------------------------------------------------------
@@ -578,8 +707,10 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
         if stem in images and stem not in extra_figs:
             cap = FIGURE_CAPTIONS[stem]
             if stem == "aep_at_design_discharge" and m.get(var) is not None:
-                cap += (f" Here {var} {fmt_quantity(m[var], var)} {var_unit}: mean AEP "
-                        f"{fmt_num(m.get('aep_on_predictive'))} against {fmt_num(p_d)} on the mode curve.")
+                cap += (
+                    f" Here {var} {fmt_quantity(m[var], var)} {var_unit}: mean AEP "
+                    f"{fmt_num(m.get('aep_on_predictive'))} against {fmt_num(p_d)} on the mode curve."
+                )
             fblocks.append(fig(stem, cap))
     for stem in sorted(images):
         if stem not in FIGURE_STEMS and stem not in extra_figs:
@@ -594,17 +725,23 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     # 4. sensitivity -----------------------------------------------------------
     sens = summary.get("sensitivity")
     if isinstance(sens, dict) and sens:
-        sblocks = [Block("p", "Sobol indices of the outputs to the uncertain inputs: the first-order index S1 is the "
-                              "share of output variance from one input alone, the total index ST includes its "
-                              "interactions (Saltelli et al. 2008). Intervals are the confidence half-widths.")]
+        sblocks = [
+            Block(
+                "p",
+                "Sobol indices of the outputs to the uncertain inputs: the first-order index S1 is the "
+                "share of output variance from one input alone, the total index ST includes its "
+                "interactions (Saltelli et al. 2008). Intervals are the confidence half-widths.",
+            )
+        ]
         for out_key, d in sens.items():
             if not isinstance(d, dict):
                 continue
             srows = []
             for factor, s in d.items():
                 s = s or {}
-                srows.append((factor, fmt_index(s.get("S1"), s.get("S1_conf")),
-                              fmt_index(s.get("ST"), s.get("ST_conf"))))
+                srows.append(
+                    (factor, fmt_index(s.get("S1"), s.get("S1_conf")), fmt_index(s.get("ST"), s.get("ST_conf")))
+                )
             try:
                 name = output_label(str(out_key)).text(cur, unit=False)
             except KeyError:
@@ -617,8 +754,9 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
 
     # 5. sections from other stages (alternatives, economics, ...) ------------------
     for k, s in enumerate(extra, 1):
-        sections.append(dataclasses.replace(s, title=s.title or f"Section {k}",
-                                            anchor=f"extra-{k}-{_slug(s.anchor or s.title)}"))
+        sections.append(
+            dataclasses.replace(s, title=s.title or f"Section {k}", anchor=f"extra-{k}-{_slug(s.anchor or s.title)}")
+        )
 
     # 6. warnings ----------------------------------------------------------------
     warns = list(summary.get("warnings", []) or [])
@@ -629,15 +767,26 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     sections.append(Section("Warnings", "warnings", tuple(wblocks)))
 
     # 7. provenance --------------------------------------------------------------
-    prow = [("riskcalc version", str(prov.get("riskcalc_version", ""))), ("run date", str(prov.get("date", ""))),
-            ("Python", str(prov.get("python", ""))), ("seed", str(prov.get("seed", ""))),
-            ("scenario file", str(prov.get("scenario", "")))]
+    prow = [
+        ("riskcalc version", str(prov.get("riskcalc_version", ""))),
+        ("run date", str(prov.get("date", ""))),
+        ("Python", str(prov.get("python", ""))),
+        ("seed", str(prov.get("seed", ""))),
+        ("scenario file", str(prov.get("scenario", ""))),
+    ]
     prow += [(f"setting: {k}", _setting(v)) for k, v in sorted(settings.items())]
     hashes = tuple((str(k), str(v)) for k, v in sorted((prov.get("inputs", {}) or {}).items()))
-    sections.append(Section("Provenance", "provenance", (
-        Block("table", header=("item", "value"), rows=tuple(prow), css="text"),
-        Block("p", "SHA-256 of every input file (a changed file gives a different digest):"),
-        Block("table", header=("input file", "SHA-256"), rows=hashes, css="text hash"))))
+    sections.append(
+        Section(
+            "Provenance",
+            "provenance",
+            (
+                Block("table", header=("item", "value"), rows=tuple(prow), css="text"),
+                Block("p", "SHA-256 of every input file (a changed file gives a different digest):"),
+                Block("table", header=("input file", "SHA-256"), rows=hashes, css="text hash"),
+            ),
+        )
+    )
 
     # 8. cautions -------------------------------------------------------------------
     sections.append(Section("Cautions and limitations", "cautions", tuple(_caution_blocks(summary))))
@@ -667,11 +816,16 @@ def _share(s) -> str:
 def _tolerable_blocks(tol: list[dict]) -> list[Block]:
     from ..decision.guidelines import STRUCTURES, structure_note
 
-    blocks = [Block("p", "The computed risk against tolerable-risk reference lines. Ratio = computed / line; above "
-                         "1 the result lies above the line. These lines are defaults from published guidance (or "
-                         "the lines the scenario gives); the governing agency's current policy applies and decides "
-                         "which lines, if any, are used for a decision. Items marked [from memory] were recalled and "
-                         "have not been checked against the primary document.")]
+    blocks = [
+        Block(
+            "p",
+            "The computed risk against tolerable-risk reference lines. Ratio = computed / line; above "
+            "1 the result lies above the line. These lines are defaults from published guidance (or "
+            "the lines the scenario gives); the governing agency's current policy applies and decides "
+            "which lines, if any, are used for a decision. Items marked [from memory] were recalled and "
+            "have not been checked against the primary document.",
+        )
+    ]
     if not tol:
         blocks.append(Block("p", "No tolerable-risk table was found (tables/tolerable_risk.csv)."))
         return blocks
@@ -720,35 +874,73 @@ def _tolerable_blocks(tol: list[dict]) -> list[Block]:
             share += f" ({fmt_ratio(na)} n/a)"
         if p.get("draws_basis") and p["draws_basis"] not in basis:
             basis.append(p["draws_basis"])
-        rows.append((f"{name} {ref[p['source']]}", p["definition"], what + where, fmt_num(_float(p["computed_per_yr"])),
-                     fmt_num(_float(p["limit_per_yr"])), cell(p), cell(mo), share))
-    blocks.append(Block("table", header=("reference line", "definition", "compared with", "predictive [1/yr]",
-                                         "line [1/yr]", "ratio (predictive)", "ratio (mode curve)",
-                                         "share of draws above the line"),
-                        rows=tuple(rows), css="tolerable"))
+        rows.append(
+            (
+                f"{name} {ref[p['source']]}",
+                p["definition"],
+                what + where,
+                fmt_num(_float(p["computed_per_yr"])),
+                fmt_num(_float(p["limit_per_yr"])),
+                cell(p),
+                cell(mo),
+                share,
+            )
+        )
+    blocks.append(
+        Block(
+            "table",
+            header=(
+                "reference line",
+                "definition",
+                "compared with",
+                "predictive [1/yr]",
+                "line [1/yr]",
+                "ratio (predictive)",
+                "ratio (mode curve)",
+                "share of draws above the line",
+            ),
+            rows=tuple(rows),
+            css="tolerable",
+        )
+    )
     if n_lines:
-        text = (f"On the predictive curve the result lies above {n_exceed['predictive']} of {n_lines} lines; on the "
-                f"mode curve above {n_exceed['mode']}.")
+        text = (
+            f"On the predictive curve the result lies above {n_exceed['predictive']} of {n_lines} lines; on the "
+            f"mode curve above {n_exceed['mode']}."
+        )
         if n_na["predictive"] or n_na["mode"]:
-            text += (f" {n_na['predictive']} (predictive) and {n_na['mode']} (mode curve) are not applicable: the "
-                     "f-N point's N lies outside the line's N range, or the F-N curve has no point in it; that is "
-                     "not the same as lying below the line.")
-        text += (" The f-N point uses the life loss caused by failure, ALL_inc = Σ P_f (L_breach − L_no_breach) m, "
-                 "so N = ALL_inc / AFP is the average life loss given failure; f-N points are compared with the "
-                 "f-N lines (annualized life loss and AFP), F-N limit lines with the F-N curve.")
+            text += (
+                f" {n_na['predictive']} (predictive) and {n_na['mode']} (mode curve) are not applicable: the "
+                "f-N point's N lies outside the line's N range, or the F-N curve has no point in it; that is "
+                "not the same as lying below the line."
+            )
+        text += (
+            " The f-N point uses the life loss caused by failure, ALL_inc = Σ P_f (L_breach − L_no_breach) m, "
+            "so N = ALL_inc / AFP is the average life loss given failure; f-N points are compared with the "
+            "f-N lines (annualized life loss and AFP), F-N limit lines with the F-N curve."
+        )
         blocks.append(Block("p", text))
-        conf = ("Confidence: the last column is the weighted share of the epistemic Monte Carlo draws whose figure "
-                "lies above the line (for an F-N limit line, whose F-N curve exceeds it anywhere in its N range); "
-                "the share of draws to which the line does not apply is given in brackets when there are any.")
+        conf = (
+            "Confidence: the last column is the weighted share of the epistemic Monte Carlo draws whose figure "
+            "lies above the line (for an F-N limit line, whose F-N curve exceeds it anywhere in its N range); "
+            "the share of draws to which the line does not apply is given in brackets when there are any."
+        )
         if basis:
             conf += " Draws used: " + "; ".join(basis) + "."
-        conf += (" The predictive figure is the mean over the draws, so it can lie above a line while fewer than "
-                 "half of the draws do: a few draws with large risk raise the mean.")
+        conf += (
+            " The predictive figure is the mean over the draws, so it can lie above a line while fewer than "
+            "half of the draws do: a few draws with large risk raise the mean."
+        )
         blocks.append(Block("p", conf))
     if n_not_assessed:
-        blocks.append(Block("p", f"{n_not_assessed} individual-risk line(s) are not assessed: riskcalc does not "
-                                 "compute individual risk (the annual probability of death of the person most at "
-                                 "risk)."))
+        blocks.append(
+            Block(
+                "p",
+                f"{n_not_assessed} individual-risk line(s) are not assessed: riskcalc does not "
+                "compute individual risk (the annual probability of death of the person most at "
+                "risk).",
+            )
+        )
     blocks.append(Block("p", "Sources of the lines:"))
     blocks.append(Block("list", items=tuple(f"{ref[s]} {s}" for s in sources)))
     return blocks
@@ -772,12 +964,15 @@ def _caution_blocks(summary: dict) -> list[Block]:
         "season, time of day or breach timing.",
         "Life-loss estimates are uncertain by a factor of several even with good data; treat ALL and the F-N "
         "curve as orders of magnitude.",
-        (f"Stage above the rating (or routing) table is extrapolated: "
-         f"{fmt_percent(ext.get('share_of_afp_beyond_rating_table'), sig=2)} of the AFP comes from floods above "
-         f"its top "
-         f"({fmt_quantity(ext['rating_table_top'])} {discharge_unit})." if ext.get("rating_table_top") is not None else
-         "The hazard is given as peak stage, so no rating curve is used; the stage-frequency ensemble carries "
-         "any rating uncertainty itself."),
+        (
+            f"Stage above the rating (or routing) table is extrapolated: "
+            f"{fmt_percent(ext.get('share_of_afp_beyond_rating_table'), sig=2)} of the AFP comes from floods above "
+            f"its top "
+            f"({fmt_quantity(ext['rating_table_top'])} {discharge_unit})."
+            if ext.get("rating_table_top") is not None
+            else "The hazard is given as peak stage, so no rating curve is used; the stage-frequency ensemble carries "
+            "any rating uncertainty itself."
+        ),
         f"The hazard ensemble carries the uncertainty of the frequency analysis only; change over time (climate, "
         f"land use, upstream works) is not included unless the ensemble includes it. The predictive AEP above the "
         f"grid is {fmt_num(tr.get('aep_above_grid'))} and is counted in the top cell, not dropped.",
@@ -788,35 +983,41 @@ def _caution_blocks(summary: dict) -> list[Block]:
 
 
 def _methods_blocks(with_sensitivity: bool) -> list[Block]:
-    eq = "\n".join([
-        "Predictive (mean) hazard curve, at fixed discharge q, realizations r = 1..R with weights w_r:",
-        "    p̄(q) = Σ_r w_r p_r(q)                                                  [1, 2, 3, 4]",
-        "Credible band and median curve: weighted quantiles over r of q_r(p) at fixed AEP p.",
-        "Interval masses on the grid q_0 < … < q_J (tail cell above the grid):",
-        "    m[r, j] = p_r(q_j) − p_r(q_(j+1)),   m[r, J] = p_r(q_J)",
-        "Stage from the rating curve, h(q), monotone in log q [9]; natural variability ε ~ N(0, σ_h):",
-        "    P_f*(q) = E_ε[ P_f(h(q) + ε) ]   (Gauss–Hermite quadrature)",
-        "Failure modes combined as independent, with the unimodal bounds [5]:",
-        "    P_f = 1 − Π_i (1 − P_i),   max_i P_i ≤ P_f ≤ 1 − Π_i (1 − P_i)",
-        "Integrands (cell midpoints) and the risk of realization r:",
-        "    AFP: g = P_f     EAD: g = P_f D_b + (1 − P_f) D_nb     ALL: g = P_f L_b + (1 − P_f) L_nb",
-        "    R_r = Σ_j g_j m[r, j]",
-        "Linearity (the predictive result is the mean of the per-realization results):",
-        "    Σ_r w_r R_r = Σ_j g_j m̄_j,   m̄_j = Σ_r w_r m[r, j]",
-        "F-N curve, annual probability of N or more fatalities:",
-        "    F(N) = Σ_j P_f,j m̄_j 1[L_j ≥ N]",
-        "Chance of at least one exceedance in n years:   1 − (1 − p)^n",
-        "Closed-form check of the risk integral (power-law hazard H = k0 x^−k, lognormal fragility θ, β) [6]:",
-        "    λ_f = H(θ) exp(k² β² / 2)",
-    ])
-    blocks = [Block("p", "The chain, in the order it is computed. Numbers in brackets refer to the list below."),
-              Block("eq", eq),
-              Block("p", "Frequency families follow Bulletin 17B/17C (log-Pearson Type III frequency factors) [3, 4]; "
-                         "the Pearson Type III tail for small skew uses Temme's uniform expansion [8]. Life loss "
-                         "from population at risk uses fatality rates such as those suggested by Graham [7].")]
+    eq = "\n".join(
+        [
+            "Predictive (mean) hazard curve, at fixed discharge q, realizations r = 1..R with weights w_r:",
+            "    p̄(q) = Σ_r w_r p_r(q)                                                  [1, 2, 3, 4]",
+            "Credible band and median curve: weighted quantiles over r of q_r(p) at fixed AEP p.",
+            "Interval masses on the grid q_0 < … < q_J (tail cell above the grid):",
+            "    m[r, j] = p_r(q_j) − p_r(q_(j+1)),   m[r, J] = p_r(q_J)",
+            "Stage from the rating curve, h(q), monotone in log q [9]; natural variability ε ~ N(0, σ_h):",
+            "    P_f*(q) = E_ε[ P_f(h(q) + ε) ]   (Gauss–Hermite quadrature)",
+            "Failure modes combined as independent, with the unimodal bounds [5]:",
+            "    P_f = 1 − Π_i (1 − P_i),   max_i P_i ≤ P_f ≤ 1 − Π_i (1 − P_i)",
+            "Integrands (cell midpoints) and the risk of realization r:",
+            "    AFP: g = P_f     EAD: g = P_f D_b + (1 − P_f) D_nb     ALL: g = P_f L_b + (1 − P_f) L_nb",
+            "    R_r = Σ_j g_j m[r, j]",
+            "Linearity (the predictive result is the mean of the per-realization results):",
+            "    Σ_r w_r R_r = Σ_j g_j m̄_j,   m̄_j = Σ_r w_r m[r, j]",
+            "F-N curve, annual probability of N or more fatalities:",
+            "    F(N) = Σ_j P_f,j m̄_j 1[L_j ≥ N]",
+            "Chance of at least one exceedance in n years:   1 − (1 − p)^n",
+            "Closed-form check of the risk integral (power-law hazard H = k0 x^−k, lognormal fragility θ, β) [6]:",
+            "    λ_f = H(θ) exp(k² β² / 2)",
+        ]
+    )
+    blocks = [
+        Block("p", "The chain, in the order it is computed. Numbers in brackets refer to the list below."),
+        Block("eq", eq),
+        Block(
+            "p",
+            "Frequency families follow Bulletin 17B/17C (log-Pearson Type III frequency factors) [3, 4]; "
+            "the Pearson Type III tail for small skew uses Temme's uniform expansion [8]. Life loss "
+            "from population at risk uses fatality rates such as those suggested by Graham [7].",
+        ),
+    ]
     refs = [
-        "[1] Stedinger, J.R. (1983). Design events with specified flood risk. Water Resources Research 19(2), "
-        "511–522.",
+        "[1] Stedinger, J.R. (1983). Design events with specified flood risk. Water Resources Research 19(2), 511–522.",
         "[2] Beard, L.R. (1960). Probability estimates based on small normal distribution samples. Journal of "
         "Geophysical Research 65(7), 2143–2148.",
         "[3] Interagency Advisory Committee on Water Data (1982). Guidelines for Determining Flood Flow Frequency, "
@@ -835,7 +1036,9 @@ def _methods_blocks(with_sensitivity: bool) -> list[Block]:
         "Numerical Analysis 17(2), 238–246.",
     ]
     if with_sensitivity:
-        refs.append("[10] Saltelli, A., Ratto, M., Andres, T., Campolongo, F., Cariboni, J., Gatelli, D., Saisana, M. "
-                    "and Tarantola, S. (2008). Global Sensitivity Analysis: The Primer. Wiley.")
+        refs.append(
+            "[10] Saltelli, A., Ratto, M., Andres, T., Campolongo, F., Cariboni, J., Gatelli, D., Saisana, M. "
+            "and Tarantola, S. (2008). Global Sensitivity Analysis: The Primer. Wiley."
+        )
     blocks += [Block("p", "References:"), Block("list", items=tuple(refs))]
     return blocks

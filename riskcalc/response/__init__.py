@@ -11,7 +11,24 @@ from .fragility import FRAGILITY_KINDS, FailureMode, FragilityCurve, combine_ind
 from .rating import EXTRAPOLATION_RULES, RatingCurve, StageSpread, gauss_hermite_normal, read_rating_table
 from .uncertain import ResponseParameters, UncertainInputs, UncertainParameter
 
-__all__ = ["RatingCurve", "StageSpread", "read_rating_table", "gauss_hermite_normal", "EXTRAPOLATION_RULES",
-           "FragilityCurve", "FailureMode", "combine_independent", "read_fragility_table", "FRAGILITY_KINDS",
-           "ConsequenceCurves", "read_consequence_table", "UncertainParameter", "UncertainInputs",
-           "ResponseParameters", "ResponseChain", "ChainOnPoints", "OUTPUTS", "failure_mode_output"]
+__all__ = [
+    "RatingCurve",
+    "StageSpread",
+    "read_rating_table",
+    "gauss_hermite_normal",
+    "EXTRAPOLATION_RULES",
+    "FragilityCurve",
+    "FailureMode",
+    "combine_independent",
+    "read_fragility_table",
+    "FRAGILITY_KINDS",
+    "ConsequenceCurves",
+    "read_consequence_table",
+    "UncertainParameter",
+    "UncertainInputs",
+    "ResponseParameters",
+    "ResponseChain",
+    "ChainOnPoints",
+    "OUTPUTS",
+    "failure_mode_output",
+]

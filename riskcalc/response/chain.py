@@ -114,8 +114,11 @@ class ResponseChain:
         return tuple(m.name for m in self.failure_modes)
 
     def output_names(self) -> tuple:
-        return (OUTPUTS + tuple(failure_mode_output(n) for n in self.failure_mode_names)
-                + tuple(failure_mode_output(n, True) for n in self.failure_mode_names))
+        return (
+            OUTPUTS
+            + tuple(failure_mode_output(n) for n in self.failure_mode_names)
+            + tuple(failure_mode_output(n, True) for n in self.failure_mode_names)
+        )
 
     @property
     def has_knowledge_uncertainty(self) -> bool:
@@ -148,8 +151,10 @@ class ResponseChain:
         pts = np.asarray(points, float)
         h, w = self.stages(pts)
         c = self.consequences
-        has = {"damage": bool(np.any(c.damage_breach != 0) or np.any(c.damage_no_breach != 0)),
-               "life_loss": bool(np.any(c.life_loss_breach != 0) or np.any(c.life_loss_no_breach != 0))}
+        has = {
+            "damage": bool(np.any(c.damage_breach != 0) or np.any(c.damage_no_breach != 0)),
+            "life_loss": bool(np.any(c.life_loss_breach != 0) or np.any(c.life_loss_no_breach != 0)),
+        }
         return ChainOnPoints(chain=self, points=pts, stage=h, node_weights=w, _has=has)
 
     # -- convenience ------------------------------------------------------
@@ -235,14 +240,15 @@ class ChainOnPoints:
         outputs = tuple(outputs)
         uj, invj = _unique(params.stage_offset, *params.fm_shift, *params.fm_spread)
         U = uj.shape[0]
-        off_u, shift_u, spread_u = uj[:, 0], uj[:, 1:1 + nm].T, uj[:, 1 + nm:].T
+        off_u, shift_u, spread_u = uj[:, 0], uj[:, 1 : 1 + nm].T, uj[:, 1 + nm :].T
         ext = (slice(None), None, None)
         want_fm = [i for i, n in enumerate(ch.failure_mode_names) if failure_mode_output(n) in outputs]
         want_adj = [i for i, n in enumerate(ch.failure_mode_names) if failure_mode_output(n, True) in outputs]
         need_bound = "afp_lower_bound" in outputs
         need_sum = "afp_upper_bound" in outputs or bool(want_adj)
-        need_pf = bool(want_adj) or any(k in outputs for k in ("afp", "ead", "ead_incremental", "all",
-                                                               "all_incremental"))
+        need_pf = bool(want_adj) or any(
+            k in outputs for k in ("afp", "ead", "ead_incremental", "all", "all_incremental")
+        )
         out = {}
         pf = bound = psum = None
         kept = {}
@@ -287,10 +293,10 @@ class ChainOnPoints:
             u, inv = _unique(off_u)
             hc = h[None] + u[:, 0][ext]
             c = ch.consequences
-            for has, base, top, total, inc in (("damage", c.damage_no_breach, c.damage_breach, "ead",
-                                                "ead_incremental"),
-                                               ("life_loss", c.life_loss_no_breach, c.life_loss_breach, "all",
-                                                "all_incremental")):
+            for has, base, top, total, inc in (
+                ("damage", c.damage_no_breach, c.damage_breach, "ead", "ead_incremental"),
+                ("life_loss", c.life_loss_no_breach, c.life_loss_breach, "all", "all_incremental"),
+            ):
                 if total not in outputs and inc not in outputs:
                     continue
                 if not self._has[has]:
@@ -300,13 +306,18 @@ class ChainOnPoints:
                             out[k] = zero
                     continue
                 # linear in stage, ends held (ConsequenceCurves.at); only the fields that are not zero
-                d_inc = _take(np.interp(hc, c.stage, top - base), inv) if np.any(top != base) else np.zeros((1,) + h.shape)
+                d_inc = (
+                    _take(np.interp(hc, c.stage, top - base), inv) if np.any(top != base) else np.zeros((1,) + h.shape)
+                )
                 part = pf * d_inc
                 if inc in outputs:
                     out[inc] = self._nodes(part)
                 if total in outputs:
-                    out[total] = self._nodes(part + _take(np.interp(hc, c.stage, base), inv)) if np.any(base != 0) \
+                    out[total] = (
+                        self._nodes(part + _take(np.interp(hc, c.stage, base), inv))
+                        if np.any(base != 0)
                         else (out[inc] if inc in outputs else self._nodes(part))
+                    )
         shape = (U, self.size)
         return {k: np.broadcast_to(out[k], shape) for k in outputs}, invj
 
@@ -402,9 +413,17 @@ class ChainOnPoints:
         """Nominal stage, P_f, failure-mode probabilities and consequences at the points, without natural
         variability (for tables and figures): dict of (P,) arrays."""
         ch = self.chain
-        bare = ch.on(self.points) if not ch.natural_active else ChainOnPoints(
-            chain=ch, points=self.points, stage=ch.stage_at(self.points)[:, None], node_weights=np.ones(1),
-            _has=self._has)
+        bare = (
+            ch.on(self.points)
+            if not ch.natural_active
+            else ChainOnPoints(
+                chain=ch,
+                points=self.points,
+                stage=ch.stage_at(self.points)[:, None],
+                node_weights=np.ones(1),
+                _has=self._has,
+            )
+        )
         names = ch.output_names()
         G = bare.nominal_integrands(names)
         vals = {k: G[:, j] for j, k in enumerate(names)}

@@ -23,8 +23,7 @@ from scipy import special as sc
 from ..errors import InputError
 from ..io import read_table, split_unit
 
-__all__ = ["FragilityCurve", "FailureMode", "combine_independent", "read_fragility_table",
-           "FRAGILITY_KINDS"]
+__all__ = ["FragilityCurve", "FailureMode", "combine_independent", "read_fragility_table", "FRAGILITY_KINDS"]
 
 FRAGILITY_KINDS = ("normal", "lognormal", "table")
 
@@ -151,8 +150,12 @@ def read_fragility_table(path, *, stage_unit=None, name="fragility", what="fragi
         s = split_unit(c, ("stage",))
         if s is not None:
             if s[1] is not None and stage_unit is not None and s[1] != stage_unit:
-                raise InputError(f"unit '{s[1]}' does not match the scenario's stage unit '{stage_unit}'",
-                                 table.path, row=table.header_row, column=c)
+                raise InputError(
+                    f"unit '{s[1]}' does not match the scenario's stage unit '{stage_unit}'",
+                    table.path,
+                    row=table.header_row,
+                    column=c,
+                )
             scol = c
     if scol is None:
         raise InputError(f"missing column 'stage' in the {what}", table.path, row=table.header_row)
@@ -161,11 +164,20 @@ def read_fragility_table(path, *, stage_unit=None, name="fragility", what="fragi
     p = table.numbers("probability", lo=0.0, hi=1.0, what="a probability in [0, 1]")
     for i in range(1, len(h)):
         if not h[i] > h[i - 1]:
-            raise InputError(f"stage {h[i]:g} is not above the previous row's {h[i - 1]:g}; the {what} must increase",
-                             table.path, row=table.rows[i], column=scol)
+            raise InputError(
+                f"stage {h[i]:g} is not above the previous row's {h[i - 1]:g}; the {what} must increase",
+                table.path,
+                row=table.rows[i],
+                column=scol,
+            )
         if p[i] < p[i - 1]:
-            raise InputError(f"probability {p[i]:g} is below the previous row's {p[i - 1]:g}; a fragility curve "
-                             "must not decrease with stage", table.path, row=table.rows[i], column="probability")
+            raise InputError(
+                f"probability {p[i]:g} is below the previous row's {p[i - 1]:g}; a fragility curve "
+                "must not decrease with stage",
+                table.path,
+                row=table.rows[i],
+                column="probability",
+            )
     if len(h) < 2:
         raise InputError(f"the {what} has one row; expected at least two", table.path, row=table.rows[0])
     return FragilityCurve("table", name=name, stage=h, probability=p, source=str(path))

@@ -121,19 +121,22 @@ class RatingCurve:
         hi = np.full(h.shape, self._lq[-1] + max(0.0, (np.max(h, initial=self.stage[-1]) - self.stage[-1]) / s1) + 1.0)
         for _ in range(64):
             mid = 0.5 * (lo + hi)
-            below = self.stage_at(10.0 ** mid) < h
+            below = self.stage_at(10.0**mid) < h
             lo = np.where(below, mid, lo)
             hi = np.where(below, hi, mid)
         return 10.0 ** (0.5 * (lo + hi))
 
     def check_covers(self, q_lo, q_hi, where=None):
         """Raise :class:`InputError` when ``refuse`` and the grid leaves the table."""
-        if self.extrapolation == "refuse" and (q_lo < self.discharge[0] * (1 - 1e-12)
-                                               or q_hi > self.discharge[-1] * (1 + 1e-12)):
+        if self.extrapolation == "refuse" and (
+            q_lo < self.discharge[0] * (1 - 1e-12) or q_hi > self.discharge[-1] * (1 + 1e-12)
+        ):
             raise InputError(
                 f"the rating table covers {self.discharge[0]:g} to {self.discharge[-1]:g} but the hazard grid "
-                f"runs from {q_lo:.4g} to {q_hi:.4g}; extend the table or set extrapolation = \"extend\"",
-                self.source, key=where)
+                f'runs from {q_lo:.4g} to {q_hi:.4g}; extend the table or set extrapolation = "extend"',
+                self.source,
+                key=where,
+            )
 
 
 def read_rating_table(path, *, discharge_unit=None, stage_unit=None, extrapolation="extend", what="rating table"):
@@ -150,14 +153,22 @@ def read_rating_table(path, *, discharge_unit=None, stage_unit=None, extrapolati
     for c in table.columns:
         s = split_unit(c, ("stage_sd", "discharge", "stage"))
         if s is None:
-            raise InputError(f"unknown column '{c}' in the {what}; expected discharge, stage (and optional stage_sd), "
-                             "each optionally with a unit such as discharge_m3s", table.path,
-                             row=table.header_row, column=c)
+            raise InputError(
+                f"unknown column '{c}' in the {what}; expected discharge, stage (and optional stage_sd), "
+                "each optionally with a unit such as discharge_m3s",
+                table.path,
+                row=table.header_row,
+                column=c,
+            )
         name, unit = s
         expected = discharge_unit if name == "discharge" else stage_unit
         if unit is not None and expected is not None and unit != expected:
-            raise InputError(f"unit '{unit}' does not match the scenario's {name.split('_')[0]} unit '{expected}'",
-                             table.path, row=table.header_row, column=c)
+            raise InputError(
+                f"unit '{unit}' does not match the scenario's {name.split('_')[0]} unit '{expected}'",
+                table.path,
+                row=table.header_row,
+                column=c,
+            )
         if name in cols:
             raise InputError(f"two {name} columns", table.path, row=table.header_row, column=c)
         cols[name] = c
@@ -170,11 +181,19 @@ def read_rating_table(path, *, discharge_unit=None, stage_unit=None, extrapolati
         raise InputError(f"the {what} has one row; expected at least two", table.path, row=table.rows[0])
     for i in range(1, len(q)):
         if not q[i] > q[i - 1]:
-            raise InputError(f"discharge {q[i]:g} is not above the previous row's {q[i - 1]:g}; the {what} must "
-                             "increase", table.path, row=table.rows[i], column=cols["discharge"])
+            raise InputError(
+                f"discharge {q[i]:g} is not above the previous row's {q[i - 1]:g}; the {what} must increase",
+                table.path,
+                row=table.rows[i],
+                column=cols["discharge"],
+            )
         if not h[i] > h[i - 1]:
-            raise InputError(f"stage {h[i]:g} is not above the previous row's {h[i - 1]:g}; the {what} must "
-                             "increase", table.path, row=table.rows[i], column=cols["stage"])
+            raise InputError(
+                f"stage {h[i]:g} is not above the previous row's {h[i - 1]:g}; the {what} must increase",
+                table.path,
+                row=table.rows[i],
+                column=cols["stage"],
+            )
     spread = None
     if "stage_sd" in cols:
         sd = table.numbers(cols["stage_sd"], nonnegative=True, what="a standard deviation >= 0")

@@ -31,8 +31,17 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-__all__ = ["TARGETS", "UncertainParameter", "ResponseParameters", "UncertainInputs", "SOURCES", "rating_offset",
-           "fragility_shift", "fragility_spread", "consequence_factor"]
+__all__ = [
+    "TARGETS",
+    "UncertainParameter",
+    "ResponseParameters",
+    "UncertainInputs",
+    "SOURCES",
+    "rating_offset",
+    "fragility_shift",
+    "fragility_spread",
+    "consequence_factor",
+]
 
 #: Where a parameter acts, and how several parameters on one target combine.
 TARGETS = {
@@ -134,8 +143,13 @@ class ResponseParameters:
 
     def take(self, idx) -> ResponseParameters:
         """The draws ``idx`` (an index array or slice)."""
-        return ResponseParameters(self.stage_offset[idx], self.fm_shift[:, idx], self.fm_spread[:, idx],
-                                  self.damage_factor[idx], self.life_loss_factor[idx])
+        return ResponseParameters(
+            self.stage_offset[idx],
+            self.fm_shift[:, idx],
+            self.fm_spread[:, idx],
+            self.damage_factor[idx],
+            self.life_loss_factor[idx],
+        )
 
 
 @dataclass(frozen=True, eq=False)
@@ -190,8 +204,13 @@ class UncertainInputs:
     def resolve(self, values: Mapping[str, np.ndarray], n: int) -> ResponseParameters:
         """Response parameters of ``n`` draws from parameter values (missing names take their nominal value)."""
         nm = self.n_failure_modes
-        out = {"stage_offset": np.zeros(n), "fm_shift": np.zeros((nm, n)), "fm_spread": np.ones((nm, n)),
-               "damage_factor": np.ones(n), "life_loss_factor": np.ones(n)}
+        out = {
+            "stage_offset": np.zeros(n),
+            "fm_shift": np.zeros((nm, n)),
+            "fm_spread": np.ones((nm, n)),
+            "damage_factor": np.ones(n),
+            "life_loss_factor": np.ones(n),
+        }
         for p in self.parameters:
             v = np.broadcast_to(np.asarray(values.get(p.name, p.nominal), float), (n,))
             arr = out[p.target]
@@ -222,28 +241,48 @@ class UncertainInputs:
 # --------------------------------------------------------------------------
 def rating_offset(sd: float) -> UncertainParameter:
     """A normal stage offset of the rating curve, N(0, sd) [stage units] (knowledge uncertainty of the rating)."""
-    return UncertainParameter("rating_offset", "rating", "stage_offset", stats.norm(0.0, sd), 0.0,
-                              description=f"stage offset of the rating, normal(0, {sd:g}) [stage units]",
-                              units="stage units")
+    return UncertainParameter(
+        "rating_offset",
+        "rating",
+        "stage_offset",
+        stats.norm(0.0, sd),
+        0.0,
+        description=f"stage offset of the rating, normal(0, {sd:g}) [stage units]",
+        units="stage units",
+    )
 
 
 def fragility_shift(index: int, name: str, sd: float) -> UncertainParameter:
     """A normal shift N(0, sd) [stage units] of failure mode ``index`` along the stage axis."""
-    return UncertainParameter(f"fragility_shift:{name}", "fragility", "fm_shift", stats.norm(0.0, sd), 0.0,
-                              failure_mode=index,
-                              description=f"shift of '{name}' along stage, normal(0, {sd:g}) [stage units]",
-                              units="stage units")
+    return UncertainParameter(
+        f"fragility_shift:{name}",
+        "fragility",
+        "fm_shift",
+        stats.norm(0.0, sd),
+        0.0,
+        failure_mode=index,
+        description=f"shift of '{name}' along stage, normal(0, {sd:g}) [stage units]",
+        units="stage units",
+    )
 
 
 def fragility_spread(index: int, name: str, low: float, high: float) -> UncertainParameter:
     """A uniform factor on the spread of failure mode ``index``'s normal/lognormal nodes, nominal 1."""
-    return UncertainParameter(f"fragility_spread:{name}", "fragility", "fm_spread",
-                              stats.uniform(low, high - low), 1.0, failure_mode=index,
-                              description=f"spread factor of '{name}', uniform({low:g}, {high:g}) [-]", units="-")
+    return UncertainParameter(
+        f"fragility_spread:{name}",
+        "fragility",
+        "fm_spread",
+        stats.uniform(low, high - low),
+        1.0,
+        failure_mode=index,
+        description=f"spread factor of '{name}', uniform({low:g}, {high:g}) [-]",
+        units="-",
+    )
 
 
-def consequence_factor(kind: str, distribution: str, *, low=1.0, mode=1.0, high=1.0, median=1.0,
-                       beta=0.0) -> UncertainParameter:
+def consequence_factor(
+    kind: str, distribution: str, *, low=1.0, mode=1.0, high=1.0, median=1.0, beta=0.0
+) -> UncertainParameter:
     """A random factor on every damage (``kind="damage"``) or life-loss (``"life_loss"``) value.
 
     ``triangular``: low <= mode <= high, nominal the mode; ``lognormal``: median·exp(β Z), nominal the median.
@@ -254,12 +293,23 @@ def consequence_factor(kind: str, distribution: str, *, low=1.0, mode=1.0, high=
     if distribution == "triangular":
         c = (mode - low) / (high - low)
         dist = stats.triang(c, loc=low, scale=high - low)
-        return UncertainParameter(name, "consequences", target, dist, float(mode),
-                                  description=f"{words}, triangular({low:g}, {mode:g}, {high:g}) [-]", units="-")
+        return UncertainParameter(
+            name,
+            "consequences",
+            target,
+            dist,
+            float(mode),
+            description=f"{words}, triangular({low:g}, {mode:g}, {high:g}) [-]",
+            units="-",
+        )
     if distribution == "lognormal":
-        return UncertainParameter(name, "consequences", target, stats.lognorm(beta, scale=median), float(median),
-                                  description=f"{words}, lognormal(median {median:g}, beta {beta:g}) [-]",
-                                  units="-")
+        return UncertainParameter(
+            name,
+            "consequences",
+            target,
+            stats.lognorm(beta, scale=median),
+            float(median),
+            description=f"{words}, lognormal(median {median:g}, beta {beta:g}) [-]",
+            units="-",
+        )
     raise ValueError(f"'{distribution}' is not triangular or lognormal")
-
-

@@ -25,8 +25,19 @@ from . import diagnostics as dg
 from .integrate import aep_band_contributions, cell_masses, chance_in_years, evaluation_points, fn_levels, point_aep
 from .propagate import Propagation, default_workers, propagate
 from .standard_errors import clustered_standard_error, ensemble_autocorrelation
-from .records import (HEADLINES, EnsembleSize, CrestCheck, CrestStageCheck, DesignFloodCheck, Extrapolation, FNCurve, Headline, RiskResult,
-                      Truncation, weighted_summary)
+from .records import (
+    HEADLINES,
+    EnsembleSize,
+    CrestCheck,
+    CrestStageCheck,
+    DesignFloodCheck,
+    Extrapolation,
+    FNCurve,
+    Headline,
+    RiskResult,
+    Truncation,
+    weighted_summary,
+)
 
 __all__ = ["assess", "build_grid", "run_date", "headline_figures", "fn_curves", "crest_check", "tail_checks"]
 
@@ -65,8 +76,9 @@ def build_grid(ens, chains, grid_settings, mode_params=None, points=None):
     mode_one, _ = mode_curve(ens, mode_params or None)
     bps = np.concatenate([_grid_breakpoints(m, ens.quantity) for m in chains])
     try:
-        grid = quantity_grid(ens, g["aep_max"], g["aep_min"], int(points or g["points"]), breakpoints=bps,
-                             extra_curves=(mode_one,))
+        grid = quantity_grid(
+            ens, g["aep_max"], g["aep_min"], int(points or g["points"]), breakpoints=bps, extra_curves=(mode_one,)
+        )
     except ValueError as exc:
         raise InputError(str(exc), ens.source) from None
     for m in chains:
@@ -105,9 +117,16 @@ def headline_figures(prop: Propagation, v_pred: dict, v_mode: dict, v_med: dict,
         stats, _ = weighted_summary(prop.column(n), prop.weights)
         se = clustered_standard_error(prop.column(n), prop.weights, prop.realization)
         pv, mv, pn = v_pred[n], v_mode[n], v_nominal[n]
-        out[key] = Headline(predictive=pv, mode=mv, median_curve=v_med[n], ensemble=stats, mc_standard_error=se,
-                            ratio_predictive_to_mode=_ratio(pv, mv), predictive_nominal_response=pn,
-                            ratio_hazard_only=_ratio(pn, mv))
+        out[key] = Headline(
+            predictive=pv,
+            mode=mv,
+            median_curve=v_med[n],
+            ensemble=stats,
+            mc_standard_error=se,
+            ratio_predictive_to_mode=_ratio(pv, mv),
+            predictive_nominal_response=pn,
+            ratio_hazard_only=_ratio(pn, mv),
+        )
     return out
 
 
@@ -123,8 +142,9 @@ def fn_curves(on, prop: Propagation, levels, m_mode, m_med) -> FNCurve:
     from .integrate import point_masses
 
     FN = on.fn_integrand(levels)[0]
-    fn = dict(levels=levels, mode=point_masses(m_mode, prop.rule) @ FN,
-              median_curve=point_masses(m_med, prop.rule) @ FN)
+    fn = dict(
+        levels=levels, mode=point_masses(m_mode, prop.rule) @ FN, median_curve=point_masses(m_med, prop.rule) @ FN
+    )
     if prop.fn_per_draw is not None:
         fn["predictive"] = prop.weights @ prop.fn_per_draw
         q = weighted_quantile(prop.fn_per_draw, prop.weights, [0.05, 0.5, 0.95])
@@ -147,14 +167,24 @@ def n_year_chance(weights, aep_members, years: int) -> float:
 def ensemble_size(ens, prop: Propagation) -> EnsembleSize:
     """Effective size of the ensemble: from its weights, and from its autocorrelation when it is an ordered
     MCMC sample (per headline figure, on the realizations' nominal-response values)."""
-    ess = 1.0 / float(np.sum(ens.weights ** 2))
+    ess = 1.0 / float(np.sum(ens.weights**2))
     if ens.chain is None:
-        return EnsembleSize(effective_size_from_weights=ess, assumes_independent_members=True,
-                            autocorrelation_time=None, effective_size_mcmc=None)
-    tau = {key: ensemble_autocorrelation(prop.nominal_values[:, prop.names.index(n)], ens.chain, ens.iteration)
-           for key, n, _ in HEADLINES}
-    return EnsembleSize(effective_size_from_weights=ess, assumes_independent_members=False,
-                        autocorrelation_time=tau, effective_size_mcmc={k: ess / v for k, v in tau.items()})
+        return EnsembleSize(
+            effective_size_from_weights=ess,
+            assumes_independent_members=True,
+            autocorrelation_time=None,
+            effective_size_mcmc=None,
+        )
+    tau = {
+        key: ensemble_autocorrelation(prop.nominal_values[:, prop.names.index(n)], ens.chain, ens.iteration)
+        for key, n, _ in HEADLINES
+    }
+    return EnsembleSize(
+        effective_size_from_weights=ess,
+        assumes_independent_members=False,
+        autocorrelation_time=tau,
+        effective_size_mcmc={k: ess / v for k, v in tau.items()},
+    )
 
 
 def crest_check(ens, chain, curves, design_aep: float, years: int) -> CrestCheck:
@@ -165,11 +195,15 @@ def crest_check(ens, chain, curves, design_aep: float, years: int) -> CrestCheck
         members = ens.aep(np.array([x]))[:, 0]
         p = float(ens.weights @ members)
         out[label] = DesignFloodCheck(
-            quantity_name=ens.quantity, quantity=x, stage=float(chain.stage_at(np.array([x]))[0]),
-            aep_on_predictive=p, return_period_on_predictive_yr=1 / p if p > 0 else None,
+            quantity_name=ens.quantity,
+            quantity=x,
+            stage=float(chain.stage_at(np.array([x]))[0]),
+            aep_on_predictive=p,
+            return_period_on_predictive_yr=1 / p if p > 0 else None,
             chance_in_years_nominal=float(chance_in_years(design_aep, years)),
             chance_in_years_predictive=n_year_chance(ens.weights, members, years),
-            chance_in_years_predictive_independent_years=float(chance_in_years(p, years)))
+            chance_in_years_predictive_independent_years=float(chance_in_years(p, years)),
+        )
     return CrestCheck(design_aep=design_aep, years=years, **out)
 
 
@@ -196,23 +230,36 @@ def crest_stage_check(ens, chain, curves, crest: float, years: int) -> CrestStag
     pred = float(ens.weights @ per_r)
     mode = float(curves.mode.aep(x)[0] @ w)
     med = float(curves.median.aep(x)[0] @ w)
-    return CrestStageCheck(crest_stage=float(crest), quantity_at_crest=x_c, aep_predictive=pred, aep_mode=mode,
-                           aep_median_curve=med, ratio_predictive_to_mode=_ratio(pred, mode), years=years,
-                           chance_in_years_predictive=n_year_chance(ens.weights, per_r, years),
-                           chance_in_years_mode=float(chance_in_years(mode, years)))
+    return CrestStageCheck(
+        crest_stage=float(crest),
+        quantity_at_crest=x_c,
+        aep_predictive=pred,
+        aep_mode=mode,
+        aep_median_curve=med,
+        ratio_predictive_to_mode=_ratio(pred, mode),
+        years=years,
+        chance_in_years_predictive=n_year_chance(ens.weights, per_r, years),
+        chance_in_years_mode=float(chance_in_years(mode, years)),
+    )
 
 
-def tail_checks(prop: Propagation, chain, grid, quantity: str, totals: dict, stage_unit: str = "",
-                discharge_unit: str = ""):
+def tail_checks(
+    prop: Propagation, chain, grid, quantity: str, totals: dict, stage_unit: str = "", discharge_unit: str = ""
+):
     """Truncation above and below the grid, and extrapolation beyond the rating table, with their warnings."""
     names, G = prop.names, prop.integrands
     m_pred = prop.masses_predictive
     tail = {n: float(m_pred[-1] * G[-1, i]) for i, n in enumerate(names)}  # the tail cell, evaluated at x_J
     afp = totals["afp"]
-    trunc = Truncation(quantity_name=quantity, aep_above_grid=float(prop.aep_predictive[-1]),
-                       aep_below_grid=float(1 - prop.aep_predictive[0]), top_of_grid=float(grid[-1]),
-                       bottom_of_grid=float(grid[0]), share_of_afp_from_tail=tail["afp"] / afp if afp > 0 else 0.0,
-                       tail_contribution={k: tail[n] for k, n, _ in HEADLINES})
+    trunc = Truncation(
+        quantity_name=quantity,
+        aep_above_grid=float(prop.aep_predictive[-1]),
+        aep_below_grid=float(1 - prop.aep_predictive[0]),
+        top_of_grid=float(grid[-1]),
+        bottom_of_grid=float(grid[0]),
+        share_of_afp_from_tail=tail["afp"] / afp if afp > 0 else 0.0,
+        tail_contribution={k: tail[n] for k, n, _ in HEADLINES},
+    )
     warns = dg.truncation_warnings(tail, totals, trunc.aep_above_grid)
     w = prop.point_masses_predictive
     top, aep_beyond, share = None, 0.0, 0.0
@@ -230,21 +277,38 @@ def tail_checks(prop: Propagation, chain, grid, quantity: str, totals: dict, sta
         tot = totals[n]
         shares[key] = float((w[above] * G[above, names.index(n)]).sum() / tot) if tot > 0 else 0.0
     warns += dg.consequence_table_warnings(shares, c_top, stage_unit)
-    extrap = Extrapolation(rating_table_top=top, aep_beyond_rating_table=aep_beyond,
-                           share_of_afp_beyond_rating_table=share, consequence_table_top_stage=c_top,
-                           share_of_ead_above_consequence_table=shares["expected_annual_damage"],
-                           share_of_all_above_consequence_table=shares["annualized_life_loss"])
+    extrap = Extrapolation(
+        rating_table_top=top,
+        aep_beyond_rating_table=aep_beyond,
+        share_of_afp_beyond_rating_table=share,
+        consequence_table_top_stage=c_top,
+        share_of_ead_above_consequence_table=shares["expected_annual_damage"],
+        share_of_all_above_consequence_table=shares["annualized_life_loss"],
+    )
     return trunc, extrap, warns
 
 
 def _provenance(sc, grid, rule, k, ens, chain) -> dict:
-    return {"riskcalc_version": __version__, "date": run_date(), "seed": sc.seed,
-            "python": platform.python_version(), "scenario": str(sc.path.name),
-            "inputs": dict(sc.file_hashes) or {str(p.name): sha256(p) for p in sc.files},
-            "settings": {"grid_points": int(grid.size), "aep_max": sc.grid["aep_max"], "aep_min": sc.grid["aep_min"],
-                         "rule": rule, "credible_level": sc.credible_level, "draws_per_realization": k,
-                         "realizations": ens.size, "family": ens.family, "hazard_variable": ens.quantity,
-                         "hermite_nodes": chain.hermite_nodes if chain.natural is not None else 0}}
+    return {
+        "riskcalc_version": __version__,
+        "date": run_date(),
+        "seed": sc.seed,
+        "python": platform.python_version(),
+        "scenario": str(sc.path.name),
+        "inputs": dict(sc.file_hashes) or {str(p.name): sha256(p) for p in sc.files},
+        "settings": {
+            "grid_points": int(grid.size),
+            "aep_max": sc.grid["aep_max"],
+            "aep_min": sc.grid["aep_min"],
+            "rule": rule,
+            "credible_level": sc.credible_level,
+            "draws_per_realization": k,
+            "realizations": ens.size,
+            "family": ens.family,
+            "hazard_variable": ens.quantity,
+            "hermite_nodes": chain.hermite_nodes if chain.natural is not None else 0,
+        },
+    }
 
 
 def assess(scenario, *, workers=None, progress=None, draws_per_realization=None, grid_points=None) -> RiskResult:
@@ -272,23 +336,42 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     nw = workers or sc.uncertainty.get("workers") or default_workers()
     on_mid = chain.on(evaluation_points(grid, log_spacing, "midpoint"))
     levels = fn_levels(*_life_loss_range(on_mid, chain))
-    prop = propagate(ens, chain, grid, seed=sc.seed, draws_per_realization=k, rule=rule, log_spacing=log_spacing,
-                     workers=nw, fn_levels=levels, progress=progress)
-    curves = hazard_curves(ens, grid, level=sc.credible_level, aep_max=sc.grid["aep_max"],
-                           aep_min=sc.grid["aep_min"], mode_params=sc.mode_params or None,
-                           predictive=prop.aep_predictive)
+    prop = propagate(
+        ens,
+        chain,
+        grid,
+        seed=sc.seed,
+        draws_per_realization=k,
+        rule=rule,
+        log_spacing=log_spacing,
+        workers=nw,
+        fn_levels=levels,
+        progress=progress,
+    )
+    curves = hazard_curves(
+        ens,
+        grid,
+        level=sc.credible_level,
+        aep_max=sc.grid["aep_max"],
+        aep_min=sc.grid["aep_min"],
+        mode_params=sc.mode_params or None,
+        predictive=prop.aep_predictive,
+    )
     names = prop.names
     m_mode, m_med = cell_masses(curves.aep_mode), cell_masses(curves.aep_median)
     v_nominal = dict(zip(names, prop.on_measure(prop.masses_predictive)))
     v_mode = dict(zip(names, prop.on_measure(m_mode)))
     v_med = dict(zip(names, prop.on_measure(m_med)))
-    v_pred = v_nominal if k == 1 and not chain.has_knowledge_uncertainty else dict(zip(names, prop.weights @ prop.values))
+    v_pred = (
+        v_nominal if k == 1 and not chain.has_knowledge_uncertainty else dict(zip(names, prop.weights @ prop.values))
+    )
     headline = headline_figures(prop, v_pred, v_mode, v_med, v_nominal)
     on = chain.on(prop.points)
     fn = fn_curves(on, prop, levels, m_mode, m_med)
     crest = crest_check(ens, chain, curves, sc.checks["design_aep"], sc.checks["years"])
-    truncation, extrapolation, tail_warnings = tail_checks(prop, chain, grid, ens.quantity, v_nominal,
-                                                           sc.units.get("stage", ""), sc.units.get("discharge", ""))
+    truncation, extrapolation, tail_warnings = tail_checks(
+        prop, chain, grid, ens.quantity, v_nominal, sc.units.get("stage", ""), sc.units.get("discharge", "")
+    )
     size = ensemble_size(ens, prop)
     crest_stage = None
     if sc.checks.get("crest_stage") is not None:
@@ -301,40 +384,76 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
         contributions[key] = {"bands": labels, "values": c}
     # warnings and notes
     x_mode = float(curves.mode.quantile(np.array([sc.checks["design_aep"]]))[0, 0])
-    lo_b, hi_b = (float(invert_on_paper(q, curves.aeps, [sc.checks["design_aep"]], curves.log_scale)[0])
-                  for q in (curves.quantity_lower, curves.quantity_upper))
-    warnings = (dg.monte_carlo_warnings(headline, ens.size) + dg.ensemble_size_warnings(ens.weights)
-                + dg.autocorrelation_warnings(size) + tail_warnings
-                + dg.grid_bottom_warnings(prop.integrands, names, v_nominal, truncation.aep_below_grid)
-                + dg.always_failing_warnings(prop.integrands[:, names.index("afp")])
-                + dg.mode_outside_band_warnings(x_mode, lo_b, hi_b, sc.checks["design_aep"], ens.quantity,
-                                                sc.credible_level, ens.unit or ""))
+    lo_b, hi_b = (
+        float(invert_on_paper(q, curves.aeps, [sc.checks["design_aep"]], curves.log_scale)[0])
+        for q in (curves.quantity_lower, curves.quantity_upper)
+    )
+    warnings = (
+        dg.monte_carlo_warnings(headline, ens.size)
+        + dg.ensemble_size_warnings(ens.weights)
+        + dg.autocorrelation_warnings(size)
+        + tail_warnings
+        + dg.grid_bottom_warnings(prop.integrands, names, v_nominal, truncation.aep_below_grid)
+        + dg.always_failing_warnings(prop.integrands[:, names.index("afp")])
+        + dg.mode_outside_band_warnings(
+            x_mode, lo_b, hi_b, sc.checks["design_aep"], ens.quantity, sc.credible_level, ens.unit or ""
+        )
+    )
     notes = [curves.mode_note]
     if size.assumes_independent_members:
-        notes.append("the Monte Carlo standard errors treat the ensemble's members as independent draws (the "
-                     "ensemble gives no MCMC chain/iteration order to estimate their autocorrelation); draws of "
-                     "one realization are treated as a cluster")
+        notes.append(
+            "the Monte Carlo standard errors treat the ensemble's members as independent draws (the "
+            "ensemble gives no MCMC chain/iteration order to estimate their autocorrelation); draws of "
+            "one realization are treated as a cluster"
+        )
     else:
-        notes.append("the ensemble is an ordered MCMC sample; integrated autocorrelation time " + ", ".join(
-            f"{dg.short(k)} {v:.2f}" for k, v in size.autocorrelation_time.items()) + " (Sokal 1997)")
+        notes.append(
+            "the ensemble is an ordered MCMC sample; integrated autocorrelation time "
+            + ", ".join(f"{dg.short(k)} {v:.2f}" for k, v in size.autocorrelation_time.items())
+            + " (Sokal 1997)"
+        )
     if chain.has_knowledge_uncertainty:
-        notes.append(f"knowledge uncertainty in the response is sampled: {k} draw(s) per realization; the predictive "
-                     "figures are the means over all draws, the mode and median curves use the nominal response")
+        notes.append(
+            f"knowledge uncertainty in the response is sampled: {k} draw(s) per realization; the predictive "
+            "figures are the means over all draws, the mode and median curves use the nominal response"
+        )
     nom_mean = ens.weights @ prop.nominal_values
     base = np.array([v_nominal[n] for n in names])
     lin = float(np.max(np.abs(nom_mean - base) / np.maximum(np.abs(base), 1e-300)))
-    notes.append("linearity: the risk on the predictive masses equals the weighted mean of the per-realization "
-                 f"risks (nominal response; largest relative difference {lin:.1e})")
+    notes.append(
+        "linearity: the risk on the predictive masses equals the weighted mean of the per-realization "
+        f"risks (nominal response; largest relative difference {lin:.1e})"
+    )
     if prop.fn_per_draw is not None:
-        notes.append("F-N uses the incremental life loss (given breach minus given no breach) with natural "
-                     "variability of stage folded in; the predictive F-N and its band include every draw's response "
-                     "and consequence parameters, the mode and median curves the nominal response")
+        notes.append(
+            "F-N uses the incremental life loss (given breach minus given no breach) with natural "
+            "variability of stage folded in; the predictive F-N and its band include every draw's response "
+            "and consequence parameters, the mode and median curves the nominal response"
+        )
     else:
-        notes.append("F-N uses the incremental life loss with natural variability folded in and the nominal "
-                     "response: the per-draw F-N table was too large to keep, so the predictive F-N omits the "
-                     "sampled response uncertainty")
-    return RiskResult(scenario=sc, grid=grid, curves=curves, propagation=prop, cell_aep=cell_aep,
-                      values_predictive=v_pred, values_mode=v_mode, values_median=v_med, headline=headline, fn=fn,
-                      crest=crest, truncation=truncation, extrapolation=extrapolation, ensemble_size=size,
-                      contributions=contributions,
-                      warnings=warnings, notes=notes, crest_stage=crest_stage, provenance=_provenance(sc, grid, rule, k, ens, chain))
+        notes.append(
+            "F-N uses the incremental life loss with natural variability folded in and the nominal "
+            "response: the per-draw F-N table was too large to keep, so the predictive F-N omits the "
+            "sampled response uncertainty"
+        )
+    return RiskResult(
+        scenario=sc,
+        grid=grid,
+        curves=curves,
+        propagation=prop,
+        cell_aep=cell_aep,
+        values_predictive=v_pred,
+        values_mode=v_mode,
+        values_median=v_med,
+        headline=headline,
+        fn=fn,
+        crest=crest,
+        truncation=truncation,
+        extrapolation=extrapolation,
+        ensemble_size=size,
+        contributions=contributions,
+        warnings=warnings,
+        notes=notes,
+        crest_stage=crest_stage,
+        provenance=_provenance(sc, grid, rule, k, ens, chain),
+    )

@@ -25,8 +25,15 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["cell_masses", "evaluation_points", "point_masses", "point_aep", "fn_levels", "chance_in_years",
-           "aep_band_contributions"]
+__all__ = [
+    "cell_masses",
+    "evaluation_points",
+    "point_masses",
+    "point_aep",
+    "fn_levels",
+    "chance_in_years",
+    "aep_band_contributions",
+]
 
 
 def cell_masses(p) -> np.ndarray:
@@ -103,7 +110,7 @@ def fn_levels(min_n, max_n=None, per_decade=12):
     lo = np.floor(np.log10(min_n) * per_decade) / per_decade
     top = np.ceil(np.log10(max_n) * per_decade) / per_decade
     exps = np.arange(lo, top + 1e-9, 1 / per_decade)
-    levels = 10 ** exps
+    levels = 10**exps
     levels = levels[(levels >= min_n * (1 - 1e-12)) & (levels <= max_n * (1 + 1e-12))]
     extra = [min_n, max_n] + ([1.0] if min_n <= 1.0 <= max_n else [])
     return np.unique(np.concatenate([levels, extra]))

@@ -99,8 +99,21 @@ def chunk_rows_for(chain, n_grid, chunk_bytes=CHUNK_BYTES) -> int:
     return max(1, int(chunk_bytes // (8 * per_row)))
 
 
-def propagate(ens, chain, grid, *, seed=None, draws_per_realization=1, rule="midpoint", log_spacing=True,
-              workers=None, chunk_bytes=CHUNK_BYTES, chunk_rows=None, fn_levels=None, progress=None) -> Propagation:
+def propagate(
+    ens,
+    chain,
+    grid,
+    *,
+    seed=None,
+    draws_per_realization=1,
+    rule="midpoint",
+    log_spacing=True,
+    workers=None,
+    chunk_bytes=CHUNK_BYTES,
+    chunk_rows=None,
+    fn_levels=None,
+    progress=None,
+) -> Propagation:
     """Run every realization (and its response draws) through the chain.
 
     Parameters
@@ -182,8 +195,20 @@ def propagate(ens, chain, grid, *, seed=None, draws_per_realization=1, rule="mid
     weights = np.repeat(ens.weights / kk, kk)
     realization = np.repeat(np.arange(R), kk)
     pbar = np.cumsum(mbar[::-1])[::-1]  # p̄(x_j) = Σ_{i>=j} m̄_i
-    return Propagation(names=names, values=values, weights=weights, realization=realization, aep_predictive=pbar,
-                       masses_predictive=mbar, points=pts, rule=rule, integrands=G,
-                       fn_levels=levels if levels is not None else np.array([]), fn_per_realization=fn,
-                       n_chunks=len(chunks), draws_per_realization=kk, nominal_values=nominal,
-                       fn_per_draw=fn_draws)
+    return Propagation(
+        names=names,
+        values=values,
+        weights=weights,
+        realization=realization,
+        aep_predictive=pbar,
+        masses_predictive=mbar,
+        points=pts,
+        rule=rule,
+        integrands=G,
+        fn_levels=levels if levels is not None else np.array([]),
+        fn_per_realization=fn,
+        n_chunks=len(chunks),
+        draws_per_realization=kk,
+        nominal_values=nominal,
+        fn_per_draw=fn_draws,
+    )

@@ -16,8 +16,20 @@ import numpy as np
 
 from ..io import to_plain
 
-__all__ = ["HEADLINES", "EnsembleStats", "Headline", "DesignFloodCheck", "CrestCheck", "CrestStageCheck", "Truncation",
-           "Extrapolation", "EnsembleSize", "FNCurve", "RiskResult", "weighted_summary"]
+__all__ = [
+    "HEADLINES",
+    "EnsembleStats",
+    "Headline",
+    "DesignFloodCheck",
+    "CrestCheck",
+    "CrestStageCheck",
+    "Truncation",
+    "Extrapolation",
+    "EnsembleSize",
+    "FNCurve",
+    "RiskResult",
+    "weighted_summary",
+]
 
 #: Headline outputs: summary key, integrand name, unit kind.
 HEADLINES = (
@@ -231,10 +243,16 @@ class Truncation(_Record):
 
     def as_dict(self) -> dict:
         q = self.quantity_name
-        return to_plain({"aep_above_grid": self.aep_above_grid, "aep_below_grid": self.aep_below_grid,
-                         f"top_of_grid_{q}": self.top_of_grid, f"bottom_of_grid_{q}": self.bottom_of_grid,
-                         "share_of_afp_from_tail": self.share_of_afp_from_tail,
-                         "tail_contribution": self.tail_contribution})
+        return to_plain(
+            {
+                "aep_above_grid": self.aep_above_grid,
+                "aep_below_grid": self.aep_below_grid,
+                f"top_of_grid_{q}": self.top_of_grid,
+                f"bottom_of_grid_{q}": self.bottom_of_grid,
+                "share_of_afp_from_tail": self.share_of_afp_from_tail,
+                "tail_contribution": self.tail_contribution,
+            }
+        )
 
     def __getitem__(self, key):
         return self.as_dict()[key]

@@ -27,8 +27,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["clustered_standard_error", "autocorrelation", "integrated_autocorrelation_time",
-           "ensemble_autocorrelation"]
+__all__ = ["clustered_standard_error", "autocorrelation", "integrated_autocorrelation_time", "ensemble_autocorrelation"]
 
 
 def clustered_standard_error(values, weights, clusters) -> float:

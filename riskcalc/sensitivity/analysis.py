@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 from ..errors import InputError
 from ..io import to_plain as _plain
-from .salib import (WIDE_INTERVAL, max_conf_width, morris_screening, sobol_indices, sobol_until_converged)
+from .salib import WIDE_INTERVAL, max_conf_width, morris_screening, sobol_indices, sobol_until_converged
 from ..config.settings import SensitivitySettings, read_settings
 from .evaluator import OUTPUT_KEYS, RiskDriver, driver_for_result
 from .factors import MORRIS_TAIL, scenario_factors, select_factors
@@ -107,14 +107,27 @@ class SensitivityReport:
         s = self.settings
         out = {
             "sobol": self.summary(),
-            "factors": [{"name": f.name, "source": f.source, "distribution": f.description, "group": f.group}
-                        for f in self.factors],
-            "settings": {"n": self.n, "n_start": s.n, "seed": s.seed, "second_order": s.second_order,
-                         "n_resamples": s.n_resamples, "conf_level": s.conf_level, "target_width": s.target_width,
-                         "n_max": s.n_max, "groups": {g: list(m) for g, m in s.groups},
-                         "estimators": "Saltelli et al. (2010) first order, Jansen total order (SALib)"},
-            "convergence": {"converged": self.converged, "warn_above_half_width": WIDE_INTERVAL,
-                            "history": [{"n": n, "largest_half_width": w} for n, w in self.history]},
+            "factors": [
+                {"name": f.name, "source": f.source, "distribution": f.description, "group": f.group}
+                for f in self.factors
+            ],
+            "settings": {
+                "n": self.n,
+                "n_start": s.n,
+                "seed": s.seed,
+                "second_order": s.second_order,
+                "n_resamples": s.n_resamples,
+                "conf_level": s.conf_level,
+                "target_width": s.target_width,
+                "n_max": s.n_max,
+                "groups": {g: list(m) for g, m in s.groups},
+                "estimators": "Saltelli et al. (2010) first order, Jansen total order (SALib)",
+            },
+            "convergence": {
+                "converged": self.converged,
+                "warn_above_half_width": WIDE_INTERVAL,
+                "history": [{"n": n, "largest_half_width": w} for n, w in self.history],
+            },
             "mean_mode_gap_by_source": self.gap.to_dict(orient="records"),
             "morris": None if not self.morris else {k: m.as_dict() for k, m in self.morris.items()},
             "warnings": list(self.warnings),
@@ -138,14 +151,17 @@ def _interval_warnings(results, limit=WIDE_INTERVAL):
             j = int(np.nanargmax(conf))
             d = len(r.factors)
             which = ("S1" if j < d else "ST") + f" of '{r.factors[j % d]}'"
-            msgs.append(f"{_SHORT.get(k, k)} sensitivity: {wide.size} of {conf.size} confidence half-widths exceed "
-                        f"{limit} at N = {r.n} (largest {conf[j]:.3f}, {which}); raise sensitivity.n or set "
-                        "sensitivity.target_width")
+            msgs.append(
+                f"{_SHORT.get(k, k)} sensitivity: {wide.size} of {conf.size} confidence half-widths exceed "
+                f"{limit} at N = {r.n} (largest {conf[j]:.3f}, {which}); raise sensitivity.n or set "
+                "sensitivity.target_width"
+            )
     return msgs
 
 
-def sensitivity_for_run(scenario, result, settings: SensitivitySettings | None = None, *, workers=None,
-                        driver: RiskDriver | None = None) -> SensitivityReport:
+def sensitivity_for_run(
+    scenario, result, settings: SensitivitySettings | None = None, *, workers=None, driver: RiskDriver | None = None
+) -> SensitivityReport:
     """Sobol' indices of AFP, EAD and ALL (and the gap by source) for a finished run.
 
     ``riskcalc run`` calls this only when the scenario's ``[sensitivity]`` table
@@ -184,16 +200,30 @@ def sensitivity_for_run(scenario, result, settings: SensitivitySettings | None =
     notes, warns = [], []
     try:
         if settings.target_width is not None:
-            conv = sobol_until_converged(model, sal, n_start=settings.n, target_width=settings.target_width,
-                                         n_max=settings.n_max, seed=settings.seed,
-                                         second_order=settings.second_order, n_resamples=settings.n_resamples,
-                                         conf_level=settings.conf_level)
+            conv = sobol_until_converged(
+                model,
+                sal,
+                n_start=settings.n,
+                target_width=settings.target_width,
+                n_max=settings.n_max,
+                seed=settings.seed,
+                second_order=settings.second_order,
+                n_resamples=settings.n_resamples,
+                conf_level=settings.conf_level,
+            )
             sobol, n, converged, history = conv.result, conv.n, conv.converged, conv.history
             if not converged:
                 warns.append(conv.warnings[-1])
         else:
-            sobol = sobol_indices(model, sal, settings.n, seed=settings.seed, second_order=settings.second_order,
-                                  n_resamples=settings.n_resamples, conf_level=settings.conf_level)
+            sobol = sobol_indices(
+                model,
+                sal,
+                settings.n,
+                seed=settings.seed,
+                second_order=settings.second_order,
+                n_resamples=settings.n_resamples,
+                conf_level=settings.conf_level,
+            )
             n, converged = settings.n, None
             history = ((n, {k: max_conf_width(r) for k, r in sobol.items()}),)
     except ValueError as exc:  # group names clashing with factor names, etc.
@@ -207,18 +237,36 @@ def sensitivity_for_run(scenario, result, settings: SensitivitySettings | None =
     if settings.morris:
         mf = [f.salib_factor(morris=True) for f in factors]
         morris = morris_screening(model, mf, settings.morris_trajectories, settings.morris_levels, seed=settings.seed)
-        notes.append(f"Morris screening: {settings.morris_trajectories} trajectories, {settings.morris_levels} "
-                     f"levels; unbounded factors swept over probabilities [{MORRIS_TAIL:g}, {1 - MORRIS_TAIL:g}]; the "
-                     "hazard realization ordered by its nominal AFP")
+        notes.append(
+            f"Morris screening: {settings.morris_trajectories} trajectories, {settings.morris_levels} "
+            f"levels; unbounded factors swept over probabilities [{MORRIS_TAIL:g}, {1 - MORRIS_TAIL:g}]; the "
+            "hazard realization ordered by its nominal AFP"
+        )
     t3 = time.perf_counter()
     gap = gap_by_source(result, drv, all_factors, seed=settings.seed, samples=settings.gap_samples)
-    notes.append("factors enter as probabilities in (0, 1) mapped through their quantile functions; the hazard "
-                 "realization through the inverse CDF of the weights along the realizations sorted by nominal AFP")
+    notes.append(
+        "factors enter as probabilities in (0, 1) mapped through their quantile functions; the hazard "
+        "realization through the inverse CDF of the weights along the realizations sorted by nominal AFP"
+    )
     notes.append("natural variability of stage (aleatory) is integrated in every sample and is not a factor")
     t4 = time.perf_counter()
-    prov = {"seed": settings.seed, "realizations": drv.size, "grid_points": int(drv.grid.size),
-            "model_evaluations": int(next(iter(sobol.values())).n_evaluations)}
-    return SensitivityReport(factors=factors, sobol=sobol, settings=settings, n=n, converged=converged,
-                             history=tuple(history), gap=gap, morris=morris, warnings=tuple(warns),
-                             notes=tuple(notes), provenance=prov,
-                             seconds={"precompute": t1 - t0, "sobol": t2 - t1, "morris": t3 - t2, "gap": t4 - t3})
+    prov = {
+        "seed": settings.seed,
+        "realizations": drv.size,
+        "grid_points": int(drv.grid.size),
+        "model_evaluations": int(next(iter(sobol.values())).n_evaluations),
+    }
+    return SensitivityReport(
+        factors=factors,
+        sobol=sobol,
+        settings=settings,
+        n=n,
+        converged=converged,
+        history=tuple(history),
+        gap=gap,
+        morris=morris,
+        warnings=tuple(warns),
+        notes=tuple(notes),
+        provenance=prov,
+        seconds={"precompute": t1 - t0, "sobol": t2 - t1, "morris": t3 - t2, "gap": t4 - t3},
+    )

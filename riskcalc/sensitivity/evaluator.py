@@ -89,8 +89,7 @@ class RiskDriver:
         per_row = 8 * self.on.size * n * (len(self.chain.failure_modes) + 5)
         return max(16, int(BATCH_BYTES // per_row))
 
-    def evaluate(self, realization, params: ResponseParameters | None = None, *, masses=None,
-                 workers=None) -> dict:
+    def evaluate(self, realization, params: ResponseParameters | None = None, *, masses=None, workers=None) -> dict:
         """AFP, EAD and ALL of samples (realization index, response parameters): one row of work each.
 
         Parameters
@@ -157,8 +156,9 @@ class RiskDriver:
         return model
 
 
-def build_driver(ens, chain, grid, *, rule="midpoint", log_spacing=True, workers=None,
-                 chunk_bytes=CHUNK_BYTES) -> RiskDriver:
+def build_driver(
+    ens, chain, grid, *, rule="midpoint", log_spacing=True, workers=None, chunk_bytes=CHUNK_BYTES
+) -> RiskDriver:
     """Precompute the masses of every realization on the evaluation points, and the nominal risks.
 
     Parameters
@@ -200,12 +200,23 @@ def build_driver(ens, chain, grid, *, rule="midpoint", log_spacing=True, workers
     for rows in chunks:
         nominal[rows] = W[rows] @ G
     order = np.lexsort((nominal[:, 2], nominal[:, 1], nominal[:, 0]))
-    return RiskDriver(chain=chain, on=on, grid=grid, rule=rule, masses=W, weights=np.asarray(ens.weights, float),
-                      nominal=nominal, order=order, workers=nw, precompute_seconds=time.perf_counter() - t0)
+    return RiskDriver(
+        chain=chain,
+        on=on,
+        grid=grid,
+        rule=rule,
+        masses=W,
+        weights=np.asarray(ens.weights, float),
+        nominal=nominal,
+        order=order,
+        workers=nw,
+        precompute_seconds=time.perf_counter() - t0,
+    )
 
 
 def driver_for_result(result, *, workers=None) -> RiskDriver:
     """A :class:`RiskDriver` on the grid and settings of a finished run."""
     sc_ = result.scenario
-    return build_driver(sc_.ensemble, sc_.model, result.grid, rule=sc_.grid["rule"],
-                        log_spacing=sc_.ensemble.log_scale, workers=workers)
+    return build_driver(
+        sc_.ensemble, sc_.model, result.grid, rule=sc_.grid["rule"], log_spacing=sc_.ensemble.log_scale, workers=workers
+    )

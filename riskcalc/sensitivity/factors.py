@@ -20,15 +20,12 @@ if TYPE_CHECKING:
     from ..config.settings import SensitivitySettings
 
 
-
 #: Morris sweeps an unbounded factor over the probabilities [MORRIS_TAIL, 1 - MORRIS_TAIL].
 MORRIS_TAIL = 1e-3
 
 
 #: Sources of uncertainty, in the order of the gap table.
 SOURCES = ("hazard",) + RESPONSE_SOURCES
-
-
 
 
 @dataclass(frozen=True, eq=False)
@@ -82,8 +79,9 @@ class RiskFactor:
 
 
 #: The factor of the hazard realization, first in every analysis.
-REALIZATION = RiskFactor("hazard_realization", "hazard", "the hazard realization, drawn with its weight (sorted by "
-                         "severity)")
+REALIZATION = RiskFactor(
+    "hazard_realization", "hazard", "the hazard realization, drawn with its weight (sorted by severity)"
+)
 
 
 def scenario_factors(chain) -> tuple[RiskFactor, ...]:
@@ -93,8 +91,9 @@ def scenario_factors(chain) -> tuple[RiskFactor, ...]:
     (:class:`~riskcalc.response.uncertain.UncertainInputs`), in its order; inputs without spread are
     not in the registry, so they cannot appear here.
     """
-    return (REALIZATION,) + tuple(RiskFactor(p.name, p.source, p.description, p.units, parameter=p)
-                                  for p in chain.uncertain.parameters)
+    return (REALIZATION,) + tuple(
+        RiskFactor(p.name, p.source, p.description, p.units, parameter=p) for p in chain.uncertain.parameters
+    )
 
 
 def select_factors(factors, settings: SensitivitySettings, file=None, keys=None) -> tuple[RiskFactor, ...]:
@@ -106,29 +105,33 @@ def select_factors(factors, settings: SensitivitySettings, file=None, keys=None)
         A name that is not one of the scenario's active factors, the hazard realization excluded
         (it is always a factor), or a group name equal to a factor name.
     """
-    keys = {k: keys.get(k, f"sensitivity.{k}") for k in ("include", "exclude", "groups")} if keys else {
-        k: f"sensitivity.{k}" for k in ("include", "exclude", "groups")}
+    keys = (
+        {k: keys.get(k, f"sensitivity.{k}") for k in ("include", "exclude", "groups")}
+        if keys
+        else {k: f"sensitivity.{k}" for k in ("include", "exclude", "groups")}
+    )
     names = [f.name for f in factors]
     avail = ", ".join(names)
 
     def unknown(name, key):
-        raise InputError(f"'{name}' is not an active factor of this scenario; expected one of {avail}", file,
-                         key=key)
+        raise InputError(f"'{name}' is not an active factor of this scenario; expected one of {avail}", file, key=key)
 
     for k in ("include", "exclude"):
         for m in getattr(settings, k):
             if m not in names:
                 unknown(m, keys[k])
     if "hazard_realization" in settings.exclude:
-        raise InputError("the hazard realization is always a factor; remove it from the list", file,
-                         key=keys["exclude"])
+        raise InputError(
+            "the hazard realization is always a factor; remove it from the list", file, key=keys["exclude"]
+        )
     keep = set(settings.include) | {"hazard_realization"} if settings.include else set(names)
     keep -= set(settings.exclude)
     group_of = {}
     for g, members in settings.groups:
         if g in names and tuple(members) != (g,):
-            raise InputError(f"group name '{g}' is also a factor name; rename the group", file,
-                             key=f"{keys['groups']}.{g}")
+            raise InputError(
+                f"group name '{g}' is also a factor name; rename the group", file, key=f"{keys['groups']}.{g}"
+            )
         for m in members:
             if m not in names:
                 unknown(m, f"{keys['groups']}.{g}")

@@ -15,8 +15,11 @@ from .factors import SOURCES, scenario_factors
 
 
 def _units(currency):
-    return {"annual_failure_probability": "per year", "expected_annual_damage": f"{currency} per year",
-            "annualized_life_loss": "lives per year"}
+    return {
+        "annual_failure_probability": "per year",
+        "expected_annual_damage": f"{currency} per year",
+        "annualized_life_loss": "lives per year",
+    }
 
 
 def _qmc_unit(d, n, seed):
@@ -79,8 +82,18 @@ def gap_by_source(result, driver: RiskDriver, factors=None, *, seed: int = 1, sa
         for k in OUTPUT_KEYS:
             p, m = float(vals[k]), float(mode_vals[k])
             gap = p - m
-            rows.append({"source": src, "output": k, "unit": units[k], "predictive": p, "mode": m, "gap": gap,
-                         "ratio": p / m if m > 0 else float("nan"),
-                         "share_of_total_gap": gap / total[k] if total[k] != 0 else float("nan")})
-    return pd.DataFrame(rows, columns=["source", "output", "unit", "predictive", "mode", "gap", "ratio",
-                                       "share_of_total_gap"])
+            rows.append(
+                {
+                    "source": src,
+                    "output": k,
+                    "unit": units[k],
+                    "predictive": p,
+                    "mode": m,
+                    "gap": gap,
+                    "ratio": p / m if m > 0 else float("nan"),
+                    "share_of_total_gap": gap / total[k] if total[k] != 0 else float("nan"),
+                }
+            )
+    return pd.DataFrame(
+        rows, columns=["source", "output", "unit", "predictive", "mode", "gap", "ratio", "share_of_total_gap"]
+    )

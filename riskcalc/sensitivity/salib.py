@@ -187,9 +187,7 @@ class Factor:
         if not isinstance(self.name, str) or not self.name.strip():
             raise ValueError(f"factor name must be a non-empty string, got {self.name!r}")
         if self.kind not in KINDS:
-            raise ValueError(
-                f"factor '{self.name}': unknown kind {self.kind!r}; expected one of {', '.join(KINDS)}"
-            )
+            raise ValueError(f"factor '{self.name}': unknown kind {self.kind!r}; expected one of {', '.join(KINDS)}")
         if self.group is not None and (not isinstance(self.group, str) or not self.group.strip()):
             raise ValueError(f"factor '{self.name}': group must be a non-empty string or None")
         required = KINDS[self.kind][1]
@@ -205,9 +203,7 @@ class Factor:
                     raise ValueError(f"factor '{self.name}': '{f}' must be finite, got {v}")
                 object.__setattr__(self, f, v)
             elif v is not None:
-                raise ValueError(
-                    f"factor '{self.name}': kind '{self.kind}' takes {', '.join(required)}, not '{f}'"
-                )
+                raise ValueError(f"factor '{self.name}': kind '{self.kind}' takes {', '.join(required)}, not '{f}'")
         k = self.kind
         if k in ("uniform", "loguniform", "triangular") and not self.low < self.high:
             raise ValueError(f"factor '{self.name}': need low < high, got low={self.low}, high={self.high}")
@@ -382,9 +378,7 @@ def _evaluate(model: Callable, X: np.ndarray, outputs) -> tuple[dict[str, np.nda
     for name, y in items:
         y = np.asarray(y, dtype=float)
         if y.shape != (n,):
-            raise ModelOutputError(
-                f"output '{name}': expected shape ({n},), one value per row of X, got {y.shape}"
-            )
+            raise ModelOutputError(f"output '{name}': expected shape ({n},), one value per row of X, got {y.shape}")
         bad = int(np.count_nonzero(~np.isfinite(y)))
         if bad:
             raise ModelOutputError(
@@ -492,14 +486,24 @@ def _analyze_sobol(prob, name, y, *, n, seed, second_order, n_resamples, conf_le
     labels = _labels(prob)
     d = len(labels)
     common = dict(
-        output=name, factors=labels, n=n, n_evaluations=int(y.size), seed=seed,
-        n_resamples=n_resamples, conf_level=conf_level,
+        output=name,
+        factors=labels,
+        n=n,
+        n_evaluations=int(y.size),
+        seed=seed,
+        n_resamples=n_resamples,
+        conf_level=conf_level,
     )
     if _is_constant(y):
         nan = _frozen(np.full(d, np.nan))
         s2 = _frozen(np.full((d, d), np.nan)) if second_order else None
         return SobolResult(
-            S1=nan, S1_conf=nan, ST=nan, ST_conf=nan, S2=s2, S2_conf=s2,
+            S1=nan,
+            S1_conf=nan,
+            ST=nan,
+            ST_conf=nan,
+            S2=s2,
+            S2_conf=s2,
             note=f"constant output (every run gives {y[0]:.6g}): no variance to apportion, indices undefined",
             **common,
         )
@@ -508,12 +512,19 @@ def _analyze_sobol(prob, name, y, *, n, seed, second_order, n_resamples, conf_le
         # (outputs that are zero in most runs); the point estimates are unaffected.
         warnings.filterwarnings("ignore", message="Constant values encountered")
         si = _sobol_analyze.analyze(
-            prob, y, calc_second_order=second_order, num_resamples=n_resamples,
-            conf_level=conf_level, print_to_console=False, seed=seed,
+            prob,
+            y,
+            calc_second_order=second_order,
+            num_resamples=n_resamples,
+            conf_level=conf_level,
+            print_to_console=False,
+            seed=seed,
         )
     return SobolResult(
-        S1=_frozen(si["S1"]), S1_conf=_frozen(si["S1_conf"]),
-        ST=_frozen(si["ST"]), ST_conf=_frozen(si["ST_conf"]),
+        S1=_frozen(si["S1"]),
+        S1_conf=_frozen(si["S1_conf"]),
+        ST=_frozen(si["ST"]),
+        ST_conf=_frozen(si["ST_conf"]),
         S2=_frozen(si["S2"]) if second_order else None,
         S2_conf=_frozen(si["S2_conf"]) if second_order else None,
         **common,
@@ -589,8 +600,14 @@ def sobol_indices(
     Y, is_map = _evaluate(model, X, outputs)
     res = {
         name: _analyze_sobol(
-            prob, name, y, n=n, seed=seed, second_order=bool(second_order),
-            n_resamples=n_resamples, conf_level=conf_level,
+            prob,
+            name,
+            y,
+            n=n,
+            seed=seed,
+            second_order=bool(second_order),
+            n_resamples=n_resamples,
+            conf_level=conf_level,
         )
         for name, y in Y.items()
     }
@@ -730,8 +747,9 @@ def sobol_until_converged(
         Y = {k: np.concatenate([Y[k], v]) if k in Y else v for k, v in new.items()}
         done_rows = X.shape[0]
         res = {
-            k: _analyze_sobol(prob, k, y, n=n, seed=seed, second_order=so,
-                              n_resamples=n_resamples, conf_level=conf_level)
+            k: _analyze_sobol(
+                prob, k, y, n=n, seed=seed, second_order=so, n_resamples=n_resamples, conf_level=conf_level
+            )
             for k, y in Y.items()
         }
         widths = {k: max_conf_width(r) for k, r in res.items()}
@@ -748,8 +766,11 @@ def sobol_until_converged(
         )
     return ConvergenceResult(
         result=res if is_map else next(iter(res.values())),
-        n=n, converged=converged, target_width=target_width,
-        history=tuple(history), warnings=tuple(msgs),
+        n=n,
+        converged=converged,
+        target_width=target_width,
+        history=tuple(history),
+        warnings=tuple(msgs),
     )
 
 
@@ -882,22 +903,37 @@ def morris_screening(
     conf_level, n_resamples = _check_conf(conf_level, n_resamples)
     prob = problem(factors)
     X = _morris_sample.sample(
-        dict(prob), trajectories, num_levels=levels,
-        optimal_trajectories=optimal_trajectories, seed=seed,
+        dict(prob),
+        trajectories,
+        num_levels=levels,
+        optimal_trajectories=optimal_trajectories,
+        seed=seed,
     )
     Y, is_map = _evaluate(model, X, outputs)
     n_traj = optimal_trajectories or trajectories
     res = {}
     for name, y in Y.items():
         si = _morris_analyze.analyze(
-            dict(prob), X, y, num_resamples=n_resamples, conf_level=conf_level,
-            num_levels=levels, print_to_console=False, seed=seed,
+            dict(prob),
+            X,
+            y,
+            num_resamples=n_resamples,
+            conf_level=conf_level,
+            num_levels=levels,
+            print_to_console=False,
+            seed=seed,
         )
         res[name] = MorrisResult(
-            output=name, factors=tuple(str(s) for s in si["names"]),
-            mu=_frozen(si["mu"]), mu_star=_frozen(si["mu_star"]),
-            mu_star_conf=_frozen(si["mu_star_conf"]), sigma=_frozen(si["sigma"]),
-            trajectories=int(n_traj), levels=int(levels), seed=seed, n_evaluations=int(y.size),
+            output=name,
+            factors=tuple(str(s) for s in si["names"]),
+            mu=_frozen(si["mu"]),
+            mu_star=_frozen(si["mu_star"]),
+            mu_star_conf=_frozen(si["mu_star_conf"]),
+            sigma=_frozen(si["sigma"]),
+            trajectories=int(n_traj),
+            levels=int(levels),
+            seed=seed,
+            n_evaluations=int(y.size),
         )
     return res if is_map else next(iter(res.values()))
 
@@ -959,8 +995,10 @@ def realization_factor_map(u, weights, order=None) -> np.ndarray:
         perm = np.arange(r)
     else:
         perm = np.asarray(order)
-        if perm.shape != (r,) or not np.issubdtype(perm.dtype, np.integer) or not np.array_equal(
-            np.sort(perm), np.arange(r)
+        if (
+            perm.shape != (r,)
+            or not np.issubdtype(perm.dtype, np.integer)
+            or not np.array_equal(np.sort(perm), np.arange(r))
         ):
             raise ValueError(f"order must be a permutation of 0..{r - 1} (an int array of length {r})")
     u = np.asarray(u, dtype=float)
