@@ -29,6 +29,7 @@ def bundled(tmp_path_factory):
 def test_every_figure_is_written_as_png_and_svg(bundled):
     _, folder, paths = bundled
     expected = [s for s in plots.FIGURE_STEMS if s != "sensitivity_indices"]  # no sensitivity results yet
+    # the bundled dam has [[loadings]], so its loading breakdown is drawn
     assert sorted(p.name for p in paths) == sorted(f"{s}.{e}" for s in expected for e in ("png", "svg"))
     for stem in expected:
         img = plt.imread(folder / f"{stem}.png")[..., :3]

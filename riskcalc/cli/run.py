@@ -49,6 +49,48 @@ def headline_lines(summary: dict) -> list[str]:
             f"chance of at least one exceedance in {c['years']} years: "
             f"{fmt_percent(m['chance_in_years_predictive'])}, not {fmt_percent(m['chance_in_years_nominal'])}."
         )
+    cs = summary["mode_understatement"].get("crest_stage_check")
+    if cs:
+        lines.append(
+            f"The crest ({fmt_quantity(cs['crest_stage'], 'stage')} {unit_text(summary['units'].get('stage'))}) is "
+            f"reached with AEP {fmt_num(cs['aep_predictive'])} on the predictive curve and {fmt_num(cs['aep_mode'])} "
+            f"on the mode curve (ratio {fmt_ratio(cs['ratio_predictive_to_mode'])}); chance of reaching it at least once "
+            f"in {cs['years']} years {fmt_percent(cs['chance_in_years_predictive'], sig=2)} (mode curve: "
+            f"{fmt_percent(cs['chance_in_years_mode'], sig=2)})."
+        )
+    lines += loading_lines(summary)
+    for x in summary.get("individual_risk") or []:
+        lines.append(
+            f"Individual risk, {x['name']}: {fmt_num(x['predictive'])} per year predictive, {fmt_num(x['mode'])} "
+            f"on the mode curves (5-95 %: {fmt_num(x['p05'])} to {fmt_num(x['p95'])})."
+        )
+    return lines
+
+
+def loading_lines(summary: dict) -> list[str]:
+    """Where the risk comes from: the predictive figures of every loading and its share of the total."""
+    loads = summary.get("loadings")
+    if not loads:
+        return []
+    cur = summary["units"]["currency"]
+    outs = [output_label(k) for k in HEADLINE_KEYS]
+    w = max(len(n) for n in loads) + 2
+    head = "".join(f"{o.axis(cur):>24}" for o in outs)
+    lines = ["Where the risk comes from (predictive; share of the total):", f"{'loading':{w}}{head}"]
+    order = list(dict.fromkeys(r["loading"] for r in summary["total"]["breakdown"])) or list(loads)
+    for name in order:
+        d = loads[name]
+        cells = ""
+        for o in outs:
+            v, t = d[o.key]["predictive"], summary[o.key]["predictive"]
+            share = f" ({fmt_percent(v / t)})" if t > 0 else ""
+            cells += f"{o.fmt(v) + share:>24}"
+        lines.append(f"{name:{w}}{cells}")
+    comb = summary["total"]["annual_failure_probability_combination"]
+    lines.append(
+        f"Total AFP: sum over loadings {fmt_num(comb['rare_event_sum'])}; independent loadings "
+        f"{fmt_num(comb['independent'])}; bounds {fmt_num(comb['lower_bound'])} to {fmt_num(comb['upper_bound'])}."
+    )
     return lines
 
 

@@ -9,10 +9,75 @@ from ..errors import InputError
 from ..response import FailureMode, FragilityCurve, StageSpread, read_fragility_table, read_rating_table
 from ..response import uncertain as unc_
 from ..response.chain import ResponseChain
-from ..response.consequences import read_consequence_table
+from ..response.consequences import read_consequence_table, with_exposure
+from ..response.life_loss import ExposureScenario
 from .schema import _file_name, _mode_key, check_section
 
-__all__ = ["build_model"]
+__all__ = ["build_model", "read_exposure", "read_consequence_set"]
+
+
+def read_exposure(d: dict, file) -> tuple:
+    """The ``[[exposure]]`` scenarios (weights adding up to 1) and the ``[life_loss]`` settings."""
+    ll = check_section("life_loss", d.get("life_loss") or {}, file, "life_loss.")
+    out, seen = [], set()
+    entries = d.get("exposure") or []
+    for i, e in enumerate(entries):
+        key = f"exposure[{i + 1}]"
+        x = check_section("exposure", e, file, key + ".")
+        if x["name"].strip().lower() in seen:
+            raise InputError(f"exposure scenario '{x['name']}' is named twice", file, key=key + ".name")
+        seen.add(x["name"].strip().lower())
+        hours = x["warning_hours"] if x["warning_hours"] is not None else ll["warning_hours"]
+        out.append(
+            ExposureScenario(
+                x["name"],
+                x["weight"],
+                x["population_factor"],
+                hours,
+                x["understanding"] or ll["understanding"],
+            )
+        )
+    if out:
+        total = sum(e.weight for e in out)
+        if abs(total - 1.0) > 1e-9:
+            raise InputError(
+                f"the exposure weights add up to {total:.6g}; expected 1 (each is the scenario's probability given a "
+                "failure)",
+                file,
+                key="exposure",
+            )
+    elif ll["warning_hours"] is not None:
+        out.append(ExposureScenario("all", 1.0, 1.0, ll["warning_hours"], ll["understanding"]))
+    return tuple(out), ll
+
+
+def _exposed(cons, exposure, ll, file, key):
+    """The consequence curves with their exposure scenarios (and Graham's rates where the table asks for them)."""
+    if not exposure and not cons.needs_rates:
+        return cons
+    if cons.needs_rates and not exposure:
+        raise InputError(
+            "the table gives depth x velocity for Graham's fatality rates; set [life_loss] warning_hours (or "
+            "warning_hours in every [[exposure]] scenario)",
+            file,
+            key=key,
+        )
+    try:
+        return with_exposure(cons, exposure, high_severity_from=ll["high_severity_from_m2s"])
+    except ValueError as exc:
+        raise InputError(str(exc), file, key="exposure") from None
+
+
+def read_consequence_set(d: dict, file, units: dict, exposure=(), ll=None) -> dict:
+    """The named breach-consequence tables of ``[consequence_tables]``, with the exposure scenarios applied."""
+    ll = ll or check_section("life_loss", {}, file, "life_loss.")
+    named = {}
+    for name, path in (d.get("consequence_tables") or {}).items():
+        key = f"consequence_tables.{name}"
+        _file_name(path, file, key)
+        c = read_consequence_table(path, stage_unit=units["stage"], currency=units["currency"])
+        named[name] = _exposed(c, exposure, ll, file, key)
+    return named
 
 
 def _multiplier(kind, d, file, key):
@@ -74,7 +139,7 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
     fms = d.get("failure_modes")
     if not isinstance(fms, list) or not fms:
         raise InputError("expected at least one [[failure_modes]] entry", file, key="failure_modes")
-    modes, seen = [], set()
+    modes, seen, own = [], set(), []
     params = [unc_.rating_offset(float(offset_sd))] if offset_sd > 0 else []
     for i, fm in enumerate(fms):
         key = f"failure_modes[{i + 1}]"
@@ -123,6 +188,7 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
                 raise InputError(f"'{n['kind']}' is not normal, lognormal or table", file, key=nkey + ".kind")
             nodes.append(node)
         mode = FailureMode(f["name"], tuple(nodes))
+        own.append(f["consequences"] or None)
         if f["shift_sd"] > 0:
             params.append(unc_.fragility_shift(i, f["name"], float(f["shift_sd"])))
         if sr and mode.has_spread:
@@ -138,10 +204,25 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
     c = check_section("consequences", d.get("consequences"), file, "consequences.")
     _file_name(c["table"], file, "consequences.table")
     cons = read_consequence_table(c["table"], stage_unit=stage_u, currency=cur)
+    exposure, ll = read_exposure(d, file)
+    cons = _exposed(cons, exposure, ll, file, "consequences.table")
+    named = read_consequence_set(d, file, units, exposure, ll)
+    mode_cons = []
+    for i, name in enumerate(own):
+        if name is not None and name not in named:
+            have = ", ".join(named) or "none"
+            raise InputError(
+                f"names consequence table '{name}', which [consequence_tables] does not define (defined: {have})",
+                file,
+                key=f"failure_modes[{i + 1}].consequences",
+            )
+        mode_cons.append(None if name is None else named[name])
     dm, d_const = _multiplier("damage", c["damage_multiplier"], file, "consequences.damage_multiplier")
     lm, l_const = _multiplier("life_loss", c["life_loss_multiplier"], file, "consequences.life_loss_multiplier")
+    lm = _graham_range(lm, [cons] + [m for m in mode_cons if m is not None], ll, c["life_loss_multiplier"])
     if d_const != 1.0 or l_const != 1.0:
         cons = cons.scaled(d_const, l_const)
+        mode_cons = [None if m is None else m.scaled(d_const, l_const) for m in mode_cons]
     params += [p for p in (dm, lm) if p is not None]
     unc = check_section("uncertainty", d.get("uncertainty", {}), file, "uncertainty.")
     if not 2 <= unc["hermite_nodes"] <= 64:
@@ -153,4 +234,25 @@ def build_model(d: dict, file, units: dict, variable: str) -> ResponseChain:
         natural=natural,
         uncertain=unc_.UncertainInputs(tuple(params), len(modes)),
         hermite_nodes=unc["hermite_nodes"],
+        mode_consequences=tuple(mode_cons) if any(m is not None for m in mode_cons) else (),
     )
+
+
+def _graham_range(lm, tables, ll, given):
+    """The life-loss multiplier: the user's, else triangular over Graham's range where rates come from it.
+
+    Graham (1999) gives a range with each suggested rate; riskcalc takes it as one triangular factor on life
+    loss (low, 1, high), low and high the population-weighted life loss at the ends of the ranges relative
+    to the suggested rates (one factor for all rows: the rates are taken to err together). The range of the
+    table with the largest relative width is used when several tables take rates from the method.
+    """
+    if given or ll["rate_uncertainty"] == "none":
+        return lm
+    ranges = [t.rate_range for t in tables if t.rate_range is not None]
+    if not ranges:
+        return lm
+    lo = min(r[0] for r in ranges)
+    hi = max(r[1] for r in ranges)
+    if not hi > lo:
+        return lm
+    return unc_.consequence_factor("life_loss", "triangular", low=lo, mode=1.0, high=hi)

@@ -70,6 +70,23 @@ def _absolutize(d: dict, here: Path):
     fut = d.get("future")
     if isinstance(fut, dict):
         _absolutize(fut, here)
+    ct = d.get("consequence_tables")
+    if isinstance(ct, dict):
+        for k, v in ct.items():
+            if isinstance(v, str) and v:
+                ct[k] = str((here / v).resolve())
+    for ld in d.get("loadings", []) or []:
+        if not isinstance(ld, dict):
+            continue
+        if isinstance(ld.get("scenario"), str) and ld["scenario"]:
+            ld["scenario"] = str((here / ld["scenario"]).resolve())
+        for sect in ("hazard", "pool"):
+            s = ld.get(sect)
+            if isinstance(s, dict) and isinstance(s.get("table"), str) and s["table"]:
+                s["table"] = str((here / s["table"]).resolve())
+        for fm in ld.get("failure_modes", []) or []:
+            if isinstance(fm, dict) and isinstance(fm.get("table"), str) and fm["table"]:
+                fm["table"] = str((here / fm["table"]).resolve())
     econ = d.get("economics")
     if isinstance(econ, dict) and isinstance(econ.get("future"), dict):
         _absolutize(econ["future"], here)
@@ -169,6 +186,8 @@ class Scenario:
     alternatives: tuple
     economics: Any
     structure: str = "unspecified"
+    loadings: tuple = ()
+    individual_risk: tuple = ()
     files: tuple = ()
     raw: dict = field(default_factory=dict)
     file_hashes: dict = field(default_factory=dict)  # SHA-256 of every input as read, keyed by relative path
@@ -313,6 +332,13 @@ def load_scenario(path) -> Scenario:
     from ..risk.assess import build_grid
 
     build_grid(ens, (model,), grid, mode)
+    from .loadings import read_individual_risk, read_loadings
+
+    loadings = read_loadings(d, path, units, model, load_scenario)
+    all_modes = [("flood", m) for m in model.failure_mode_names] + [
+        (ld.name, m) for ld in loadings for m in ld.failure_mode_names
+    ]
+    individual = read_individual_risk(d, path, all_modes)
     inputs = [Path(hz["ensemble"])]
     if model.rating is not None:
         inputs.append(Path(model.rating.source))
@@ -320,6 +346,10 @@ def load_scenario(path) -> Scenario:
         inputs += [Path(n.source) for n in m.nodes if n.source]
     inputs.append(Path(model.consequences.source))
     inputs += _table_paths(top["alternatives"]) + _table_paths(top["economics"])
+    inputs += _table_paths(top["consequence_tables"]) + _table_paths(top["loadings"])
+    for ld in loadings:
+        if ld.kind == "flood":
+            inputs += list(ld.scenario.files)
     all_files = tuple(dict.fromkeys([*files, *inputs]))
     return Scenario(
         path=path,
@@ -340,6 +370,8 @@ def load_scenario(path) -> Scenario:
         alternatives=alternatives,
         economics=economics,
         structure=top["structure"],
+        loadings=loadings,
+        individual_risk=individual,
         files=all_files,
         raw=d,
         file_hashes=_hashes(all_files, path),

@@ -140,6 +140,16 @@ SCHEMA: dict[str, dict[str, Field]] = {
             list, REQUIRED, table="failure_mode", min_items=1, expect="at least one [[failure_modes]] entry"
         ),
         "consequences": Field(dict, REQUIRED, table="consequences"),
+        "consequence_tables": Field(
+            dict,
+            {},
+            values=Field(str, nonblank=True, expect=_TABLE_FILE),
+            expect="a table of name = consequence table file",
+        ),
+        "exposure": Field(list, [], table="exposure", expect="a list of tables ([[exposure]])"),
+        "life_loss": Field(dict, {}, table="life_loss"),
+        "loadings": Field(list, [], table="loading", expect="a list of tables ([[loadings]])"),
+        "individual_risk": Field(list, [], table="individual_risk", expect="a list of tables ([[individual_risk]])"),
         "uncertainty": Field(dict, {}, table="uncertainty"),
         "checks": Field(dict, {}, table="checks"),
         "outputs": Field(dict, {}, table="outputs"),
@@ -179,6 +189,79 @@ SCHEMA: dict[str, dict[str, Field]] = {
             list, [], items=Field(float, expect="a spread factor"), expect="[low, high] with 0 < low <= high"
         ),
         "nodes": Field(list, REQUIRED, table="node", min_items=1, expect="at least one [[failure_modes.nodes]] entry"),
+        "consequences": Field(str, "", expect="the name of a [consequence_tables] entry"),
+    },
+    "exposure": {
+        "name": Field(str, REQUIRED, nonblank=True, expect="the exposure scenario's name"),
+        "weight": Field(float, REQUIRED, low=0, high=1, low_open=True, expect="a probability in (0, 1]"),
+        "population_factor": Field(float, 1.0, low=0, expect="a factor >= 0 on the population at risk"),
+        "warning_hours": Field(float, None, low=0, expect="a warning time in hours >= 0"),
+        "understanding": Field(str, "", choices=("", "vague", "precise")),
+    },
+    "life_loss": {
+        "warning_hours": Field(float, None, low=0, expect="a warning time in hours >= 0"),
+        "understanding": Field(str, "vague", choices=("vague", "precise")),
+        "high_severity_from_m2s": Field(
+            float, math.inf, low=0, low_open=True, allow_inf=True, expect="a depth x velocity in m2/s (or inf)"
+        ),
+        "rate_uncertainty": Field(str, "graham_range", choices=("graham_range", "none")),
+    },
+    "loading": {
+        "name": Field(str, REQUIRED, nonblank=True, expect="the loading's name"),
+        "kind": Field(str, REQUIRED, choices=("flood", "seismic", "static")),
+        "scenario": Field(str, "", expect="the file name of a scenario (a flood loading)"),
+        "hazard": Field(dict, {}, table="seismic_hazard"),
+        "pool": Field(dict, {}, table="pool"),
+        "consequences": Field(str, "", expect="the name of a [consequence_tables] entry"),
+        "draws": Field(int, 0, low=0, high=1_000_000, expect="a number of draws (0: as many as the flood loading)"),
+        "failure_modes": Field(list, [], table="loading_failure_mode", expect="a list of tables"),
+    },
+    "seismic_hazard": {
+        "table": Field(str, REQUIRED, nonblank=True, expect=_TABLE_FILE),
+        "weights": Field(
+            dict,
+            REQUIRED,
+            values=Field(float, low=0, high=1, low_open=True, expect="a weight in (0, 1]"),
+            expect="a table of curve column = weight",
+        ),
+        "mode": Field(str, "", expect="the column of the most likely curve (default: the largest weight)"),
+        "points": Field(int, 400, low=20, high=100_000, expect="a number of ground-motion grid points"),
+    },
+    "pool": {
+        "table": Field(str, "", expect=_TABLE_FILE),
+        "stage": Field(float, None, expect="a reservoir level in the scenario's stage unit"),
+        "bins": Field(int, 12, low=1, high=200, expect="a number of pool-level bins"),
+    },
+    "loading_failure_mode": {
+        "name": Field(str, REQUIRED, nonblank=True, expect="a failure-mode name"),
+        "consequences": Field(str, "", expect="the name of a [consequence_tables] entry"),
+        "median": Field(float, None, low=0, low_open=True, expect="a median ground motion > 0"),
+        "beta": Field(float, None, low=0, low_open=True, expect="a logarithmic standard deviation > 0"),
+        "table": Field(str, "", expect=_TABLE_FILE),
+        "median_log_sd": Field(float, 0.0, low=0, expect="a logarithmic standard deviation >= 0"),
+        "annual_probability": Field(dict, {}, table="annual_probability"),
+    },
+    "annual_probability": {
+        "distribution": Field(str, "fixed", choices=("fixed", "lognormal", "triangular", "loguniform")),
+        "value": Field(float, None, low=0, high=1, low_open=True, expect=_PROB),
+        "median": Field(float, None, low=0, high=1, low_open=True, expect=_PROB),
+        "beta": Field(float, None, low=0, expect="a logarithmic standard deviation >= 0"),
+        "low": Field(float, None, low=0, high=1, expect=_PROB),
+        "mode": Field(float, None, low=0, high=1, expect=_PROB),
+        "high": Field(float, None, low=0, high=1, low_open=True, expect=_PROB),
+    },
+    "individual_risk": {
+        "name": Field(str, REQUIRED, nonblank=True, expect="the location or group's name"),
+        "exposure": Field(
+            float, 1.0, low=0, high=1, expect="the fraction of time the most exposed person is there, in [0, 1]"
+        ),
+        "fatality_rate": Field(float, REQUIRED, low=0, high=1, expect="a fatality rate given failure, in [0, 1]"),
+        "failure_modes": Field(
+            list,
+            [],
+            items=Field(str, nonblank=True, expect="a failure-mode name"),
+            expect="a list of failure-mode names (default: all)",
+        ),
     },
     "node": {
         "name": Field(str, "node"),

@@ -7,8 +7,8 @@ Each line is compared with the figure it limits, and only with that one:
   ``ALL_inc`` is the life loss caused by failure (given breach minus given no breach);
 * an F-N limit line with the F-N curve, anywhere in the line's N range
   (:func:`riskcalc.decision.guidelines.check_fn_curve`, the curve read as the step function it is);
-* an individual-risk line with nothing: riskcalc does not compute individual risk, so the line is
-  "not assessed".
+* an individual-risk line with the individual risk of the most exposed person (the largest over the
+  scenario's ``[[individual_risk]]`` groups); without such groups the line is "not assessed".
 
 Every comparison has a *position*: ``"above"`` (ratio computed / line > 1), ``"below"``, ``"not
 applicable"`` (an f-N point whose N lies outside the line's N range, or an F-N curve with no point in
@@ -71,7 +71,7 @@ KIND_TEXT = {
 }
 
 #: Why an individual-risk line has no position.
-NOT_ASSESSED = "not assessed (riskcalc does not compute individual risk)"
+NOT_ASSESSED = "not assessed (the scenario defines no [[individual_risk]] group)"
 
 _COMPARED = {
     "fn_limit": "F-N curve (anywhere in the line's N range)",
@@ -233,7 +233,15 @@ def _place(line, levels, fig: Figures):
 
 
 def line_checks(
-    lines, levels, predictive: Figures, mode: Figures, draws: Figures, weights, fn_weights=None, fn_basis: str = ""
+    lines,
+    levels,
+    predictive: Figures,
+    mode: Figures,
+    draws: Figures,
+    weights,
+    fn_weights=None,
+    fn_basis: str = "",
+    individual=(),
 ) -> list[dict]:
     """Every line against the predictive and mode figures, with the confidence over the draws.
 
@@ -252,6 +260,9 @@ def line_checks(
         Default ``weights``.
     fn_basis : str
         What the rows of ``draws.fn`` are, said in the result.
+    individual : sequence of IndividualRisk, optional
+        Individual risks (:func:`riskcalc.risk.loadings.individual_risks`); an individual-risk line is
+        compared with the largest (predictive, mode and per draw, its draws paired with ``weights``).
 
     Returns
     -------
@@ -275,6 +286,28 @@ def line_checks(
             "definition": definition(ln),
             "compared_with": _COMPARED[k],
         }
+        if k == "individual_risk" and individual:
+            pv = max(x.predictive for x in individual)
+            mv = max(x.mode for x in individual)
+            for name, v in (("predictive", pv), ("mode", mv)):
+                ratio = v / ln.value
+                row[name] = {
+                    "computed_per_yr": v,
+                    "limit_per_yr": ln.value,
+                    "ratio": ratio,
+                    "n_lives": None,
+                    "position": position(ratio),
+                }
+            d = np.max(np.stack([np.asarray(x.draws, float) for x in individual]), axis=0)
+            row["draws"] = {
+                **draw_shares(d / ln.value, np.asarray(individual[0].weights, float)),
+                "basis": "the largest individual risk over the groups in every Monte Carlo draw",
+            }
+            row["compared_with"] = (
+                "individual risk of the most exposed person (largest over the [[individual_risk]] groups)"
+            )
+            out.append(row)
+            continue
         if k == "individual_risk":
             blank = {
                 "computed_per_yr": None,
@@ -327,7 +360,7 @@ def count_positions(checks: list[dict]) -> dict:
         ``{"predictive": {position: count}, "mode": {...}, "lines_assessed": n, "lines_not_assessed": j}``;
         every position of :data:`POSITIONS` but "not assessed" is a key of the inner dicts.
     """
-    assessed = [c for c in checks if c["kind"] != "individual_risk"]
+    assessed = [c for c in checks if c["predictive"]["position"] != "not assessed"]
     out = {"lines_assessed": len(assessed), "lines_not_assessed": len(checks) - len(assessed)}
     for m in ("predictive", "mode"):
         out[m] = {p: sum(1 for c in assessed if c[m]["position"] == p) for p in POSITIONS[:3]}
@@ -383,20 +416,31 @@ def reference_checks(result, guidelines=None) -> dict:
         gs, origin = scenario_guideline_set(sc)
     else:
         gs, origin = guidelines, "given"
-    prop = result.propagation
-    levels = np.asarray(result.fn["levels"], float)
-    vp, vm = result.values_predictive, result.values_mode
-    fn_d, fn_w, basis = draw_fn_curves(result)
-    checks = line_checks(
-        gs.lines,
-        levels,
-        Figures(vp["afp"], vp["all_incremental"], np.asarray(result.fn["predictive"], float)),
-        Figures(vm["afp"], vm["all_incremental"], np.asarray(result.fn["mode"], float)),
-        Figures(prop.column("afp"), prop.column("all_incremental"), fn_d),
-        prop.weights,
-        fn_w,
-        basis,
-    )
+    study = getattr(result, "study", None)
+    individual = tuple(getattr(result, "individual_risk", ()) or ())
+    if study is None:
+        prop = result.propagation
+        levels = np.asarray(result.fn["levels"], float)
+        vp, vm = result.values_predictive, result.values_mode
+        fn_d, fn_w, basis = draw_fn_curves(result)
+        pred = Figures(vp["afp"], vp["all_incremental"], np.asarray(result.fn["predictive"], float))
+        mode = Figures(vm["afp"], vm["all_incremental"], np.asarray(result.fn["mode"], float))
+        draws = Figures(prop.column("afp"), prop.column("all_incremental"), fn_d)
+        weights = prop.weights
+    else:  # the total over loadings, with paired draws
+        levels = np.asarray(study.fn.levels, float)
+        tp, tm = study.predictive, study.mode
+        pred = Figures(tp["afp"], tp["all_incremental"], np.asarray(study.fn.predictive, float))
+        mode = Figures(tm["afp"], tm["all_incremental"], np.asarray(study.fn.mode, float))
+        fn_d = study.fn_draws
+        draws = Figures(study.draws["afp"], study.draws["all_incremental"], fn_d)
+        weights, fn_w = study.weights, study.weights
+        basis = (
+            "the F-N curve of every paired draw of the loadings (total)"
+            if fn_d is not None
+            else "the per-draw F-N curves were not kept (too many realizations × levels)"
+        )
+    checks = line_checks(gs.lines, levels, pred, mode, draws, weights, fn_w, basis, individual=individual)
     return to_plain(
         {
             "structure": structure,
@@ -407,7 +451,7 @@ def reference_checks(result, guidelines=None) -> dict:
             "confidence": "share of draws above a line = the weighted share of the epistemic Monte Carlo draws whose "
             "figure lies above it (AFP for an AFP line, the f-N point for a life-loss line, the F-N "
             "curve anywhere in the line's N range for an F-N limit line)",
-            "individual_risk": NOT_ASSESSED,
+            "individual_risk": [x.as_dict() for x in individual] if individual else NOT_ASSESSED,
         }
     )
 
@@ -436,7 +480,10 @@ def summary_line(ref: dict) -> str:
     na = max(p["not applicable"], m["not applicable"])
     if na:
         text += f" ({p['not applicable']} / {m['not applicable']} not applicable)"
-    text += "; individual risk is not assessed"
-    if c["lines_not_assessed"]:
-        text += f" ({c['lines_not_assessed']} individual-risk line{'s' if c['lines_not_assessed'] != 1 else ''})"
+    if isinstance(ref.get("individual_risk"), list):
+        text += "; individual risk is assessed (the most exposed person of the [[individual_risk]] groups)"
+    else:
+        text += "; individual risk is not assessed"
+        if c["lines_not_assessed"]:
+            text += f" ({c['lines_not_assessed']} individual-risk line{'s' if c['lines_not_assessed'] != 1 else ''})"
     return text + "."

@@ -202,8 +202,13 @@ FIGURE_STEMS = (
     "risk_distributions",
     "fn_chart",
     "risk_by_aep_band",
+    "risk_by_loading",
     "sensitivity_indices",
 )
+
+#: Stems written only when the run has them: the loading breakdown (a scenario with [[loadings]]) and the
+#: sensitivity indices (a run with Sobol results).
+OPTIONAL_STEMS = ("risk_by_loading", "sensitivity_indices")
 
 _SUP = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 
@@ -556,7 +561,7 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
         gs, origin = guidelines, "given"
     lines = merged_chart_lines(gs, with_source=True)
     structure = getattr(result.scenario, "structure", "unspecified") or "unspecified"
-    fn = result.fn
+    fn = result.overall_fn  # the total over loadings when the scenario has several
     N = np.asarray(fn["levels"], float)
     with plt.rc_context(_rc()):
         fig, (a1, a2) = plt.subplots(1, 2, figsize=(10.0, 6.0))
@@ -604,14 +609,20 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
         a1.grid(True, which="major", color=STYLE["grid"], lw=0.6)
         _legend_below(a1)
         # --- f-N
-        prop = result.propagation
-        af = prop.column("afp")
-        al = prop.column("all_incremental")
+        study = getattr(result, "study", None)
+        if study is None:
+            af, al, dw = (
+                result.propagation.column("afp"),
+                result.propagation.column("all_incremental"),
+                result.propagation.weights,
+            )
+        else:
+            af, al, dw = study.draws["afp"], study.draws["all_incremental"], study.weights
         ok = (af > 0) & (al > 0)
         idx = np.flatnonzero(ok)
         if idx.size > max_points:
             rng = np.random.default_rng(seed)
-            w = prop.weights[idx] / prop.weights[idx].sum()
+            w = dw[idx] / dw[idx].sum()
             idx = np.sort(rng.choice(idx, max_points, replace=False, p=w))
         if idx.size:
             a2.scatter(
@@ -625,7 +636,11 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
                 zorder=2,
             )
         pts = []
-        vp, vm, vmed = result.values_predictive, result.values_mode, result.values_median
+        vp, vm, vmed = (
+            (result.values_predictive, result.values_mode, result.values_median)
+            if study is None
+            else (study.predictive, study.mode, study.median_curve)
+        )
         for v, key, lab in (
             (vp, "predictive", "predictive"),
             (vm, "mode", "mode curve"),
@@ -670,7 +685,9 @@ def plot_fn(result, guidelines=None, path_stem=None, *, seed=1, max_points=1500)
             0.5,
             1.0,
             f"Reference lines: {which}; the governing agency's current policy decides which lines "
-            "apply. Individual risk is not assessed.",
+            "apply."
+            + ("" if getattr(result, "individual_risk", ()) else " Individual risk is not assessed.")
+            + (" Curves and points: total over loadings." if study is not None else ""),
             ha="center",
             va="bottom",
             fontsize=7.5,
@@ -829,6 +846,10 @@ def run_figures(result, folder):
     paths += plot_risk_distributions(result, folder / "risk_distributions")
     paths += plot_fn(result, scenario_guidelines(sc), folder / "fn_chart")
     paths += plot_contributions(result, folder / "risk_by_aep_band")
+    if getattr(result, "study", None) is not None:
+        from .study_figures import plot_loadings
+
+        paths += plot_loadings(result, folder / "risk_by_loading")
     if result.sensitivity:
         out = plot_sensitivity(result.sensitivity, folder / "sensitivity_indices")
         if out:

@@ -82,6 +82,8 @@ FIGURE_CAPTIONS = {
     "risk_by_aep_band": "Where the risk comes from: share of the predictive AFP, EAD and ALL from floods in each AEP "
     "band.",
     "sensitivity_indices": "Sobol first-order and total sensitivity indices with their confidence intervals.",
+    "risk_by_loading": "Where the risk comes from by loading: predictive and mode-curve AFP, EAD and ALL stacked by "
+    "loading, the totals on top.",
 }
 
 MEMO_SECTIONS_FILE = "memo_sections.json"
@@ -406,7 +408,8 @@ def tolerable_risk_table(result, guidelines=None):
     point (AFP, ALL_inc / AFP), where ALL_inc = Σ P_f (L_breach − L_no_breach) m is the life loss caused by
     failure; an F-N limit line with the F-N curve anywhere in its N range (its largest ratio,
     :func:`riskcalc.decision.guidelines.check_fn_curve`). Individual-risk lines get a row saying they are not
-    assessed. The rows and the confidence come from :func:`riskcalc.decision.reference_checks.reference_checks`.
+    assessed when the scenario has no ``[[individual_risk]]`` group, else compared with the largest individual
+    risk. The rows and the confidence come from :func:`riskcalc.decision.reference_checks.reference_checks`.
 
     Returns
     -------
@@ -433,7 +436,7 @@ def tolerable_risk_table(result, guidelines=None):
             "structure": ref["structure"],
             "lines_from": ref["lines_from"],
         }
-        if c["kind"] == "individual_risk":
+        if c["kind"] == "individual_risk" and c["predictive"]["position"] == "not assessed":
             rows.append(
                 {
                     **base,
@@ -661,7 +664,7 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
                 "p",
                 (
                     f"What the ratio means: {mode_words(summary.get('notes'))} {word} the annual failure probability "
-                    f"(predictive / mode = {fmt_ratio(r_afp)}). A crest set at the mode curve's {fmt_aep(p_d)} stage "
+                    f"(predictive / mode = {fmt_ratio(r_afp)}{_flood_ratio(summary)}). A crest set at the mode curve's {fmt_aep(p_d)} stage "
                     f"({fmt_quantity(m.get('stage'), 'stage')} {stage_unit}) is exceeded on average about once in "
                     f"{fmt_return_period(m['aep_on_predictive'])} years on the predictive curve, not once in "
                     f"{fmt_return_period(p_d)}: the chance of at least one exceedance in {years} years is "
@@ -680,6 +683,19 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
                 "and consequences, which the mode-curve analysis leaves out as well.",
             )
         )
+    cs = (summary.get("mode_understatement", {}) or {}).get("crest_stage_check")
+    if cs:
+        blocks.append(
+            Block(
+                "p",
+                f"The crest itself ({fmt_quantity(cs['crest_stage'], 'stage')} {stage_unit}) is reached with annual "
+                f"probability {fmt_num(cs['aep_predictive'])} on the predictive curve and {fmt_num(cs['aep_mode'])} "
+                f"on the mode curve (ratio {fmt_ratio(cs['ratio_predictive_to_mode'])}); the chance of reaching it "
+                f"at least once in {cs['years']} years is {fmt_percent(cs['chance_in_years_predictive'], sig=2)} "
+                f"(mode curve: {fmt_percent(cs['chance_in_years_mode'], sig=2)}).",
+            )
+        )
+    blocks += _loading_blocks(summary, cur)
     blocks.append(
         Block(
             "p",
@@ -800,6 +816,73 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
         blocks, n = number_figures(sec.blocks, images, n)
         sections[i] = dataclasses.replace(sec, blocks=tuple(blocks))
     return title, subtitle, sections
+
+
+def _flood_ratio(summary: dict) -> str:
+    """'' or ' for the total over loadings; 11.65 for the flood loading alone'."""
+    loads = summary.get("loadings")
+    if not loads or "flood" not in loads:
+        return ""
+    r = loads["flood"]["annual_failure_probability"]["ratio_predictive_to_mode"]
+    return f" for the total over loadings; {fmt_ratio(r)} for the flood loading alone"
+
+
+def _loading_blocks(summary: dict, cur: str) -> list:
+    """Where the risk comes from (a study with several loadings) and the individual risks."""
+    out = []
+    loads = summary.get("loadings")
+    if loads:
+        keys = HEADLINE_KEYS
+        rows = []
+        order = list(dict.fromkeys(r["loading"] for r in summary["total"]["breakdown"])) or list(loads)
+        for name in order:
+            d = loads[name]
+            cells = [name, d.get("kind", "")]
+            for k in keys:
+                v, t = d[k]["predictive"], summary[k]["predictive"]
+                o = output_label(k)
+                cells.append(f"{o.fmt(v)} ({fmt_percent(v / t) if t else '-'})")
+            cells.append(fmt_ratio(d["annual_failure_probability"]["ratio_predictive_to_mode"]))
+            rows.append(tuple(cells))
+        rows.append(
+            (
+                "total",
+                "",
+                *(output_label(k).fmt(summary[k]["predictive"]) for k in keys),
+                fmt_ratio(summary["annual_failure_probability"]["ratio_predictive_to_mode"]),
+            )
+        )
+        comb = summary["total"]["annual_failure_probability_combination"]
+        out += [
+            Block(
+                "p",
+                "Where the risk comes from: the headline figures above are totals over the loadings, taken as "
+                "independent. Predictive figures of each loading, with its share of the total:",
+            ),
+            Block(
+                "table",
+                header=("loading", "kind", *(output_label(k).axis(cur) for k in keys), "AFP predictive / mode"),
+                rows=tuple(rows),
+            ),
+            Block(
+                "p",
+                f"Total AFP as the sum over loadings {fmt_num(comb['rare_event_sum'])}; as independent loadings "
+                f"1 - prod(1 - AFP) = {fmt_num(comb['independent'])}; any dependence between loadings gives a value "
+                f"between {fmt_num(comb['lower_bound'])} and {fmt_num(comb['upper_bound'])}. The failure-mode split "
+                "is in tables/risk_by_loading.csv. Sensitivity indices and alternatives cover the flood loading.",
+            ),
+        ]
+    for x in summary.get("individual_risk") or []:
+        out.append(
+            Block(
+                "p",
+                f"Individual risk, {x['name']} (present {fmt_percent(x['exposure'])} of the time, fatality rate "
+                f"{fmt_num(x['fatality_rate_given_failure'])} given failure): {fmt_num(x['predictive'])} per year "
+                f"on the predictive measure, {fmt_num(x['mode'])} on the mode curves; 5-95 % of the draws "
+                f"{fmt_num(x['p05'])} to {fmt_num(x['p95'])}.",
+            )
+        )
+    return out
 
 
 def _setting(v) -> str:
@@ -936,9 +1019,9 @@ def _tolerable_blocks(tol: list[dict]) -> list[Block]:
         blocks.append(
             Block(
                 "p",
-                f"{n_not_assessed} individual-risk line(s) are not assessed: riskcalc does not "
-                "compute individual risk (the annual probability of death of the person most at "
-                "risk).",
+                f"{n_not_assessed} individual-risk line(s) are not assessed: the scenario defines no "
+                "[[individual_risk]] group (the location and exposure of the person most at risk), so the "
+                "annual probability of death of that person is not computed.",
             )
         )
     blocks.append(Block("p", "Sources of the lines:"))

@@ -12,12 +12,18 @@ __all__ = ["summary_dict"]
 def summary_dict(result) -> dict:
     """Every headline figure and check of a :class:`~riskcalc.risk.records.RiskResult` as plain JSON values."""
     r = result
-    out = {k: h.as_dict() for k, h in r.headline.items()}
-    out["mode_understatement"] = {k: r.headline[k].ratio_predictive_to_mode for k, _, _ in HEADLINES}
+    overall = r.overall
+    out = {k: h.as_dict() for k, h in overall.items()}
+    out["mode_understatement"] = {k: overall[k].ratio_predictive_to_mode for k, _, _ in HEADLINES}
     out["mode_understatement"]["crest_check"] = r.crest.as_dict()
     out["mode_understatement"]["crest_stage_check"] = None if r.crest_stage is None else r.crest_stage.as_dict()
+    vp, vm, vmed = (
+        (r.values_predictive, r.values_mode, r.values_median)
+        if r.study is None
+        else (r.study.predictive, r.study.mode, r.study.median_curve)
+    )
     out["incremental"] = {
-        k: {"predictive": r.values_predictive[n], "mode": r.values_mode[n], "median_curve": r.values_median[n]}
+        k: {"predictive": vp[n], "mode": vm[n], "median_curve": vmed[n]}
         for k, n in (("expected_annual_damage", "ead_incremental"), ("annualized_life_loss", "all_incremental"))
     }
     chain = r.scenario.model
@@ -41,6 +47,16 @@ def summary_dict(result) -> dict:
         "common_cause_adjustment": "proportional: P_f P_i / sum_j P_j, so the adjusted failure-mode values add "
         "up to the system value",
     }
+    if r.study is not None:
+        out["loadings"] = {ld.name: _loading_dict(ld) for ld in r.study.loadings}
+        out["total"] = {
+            "annual_failure_probability_combination": r.study.afp_combination,
+            "breakdown": r.study.breakdown(),
+            "note": "headline figures above are totals over the loadings; 'failure_modes', 'crest_check', "
+            "'ensemble_size', 'truncation' and 'extrapolation' describe the flood loading",
+        }
+    out["exposure"] = _exposure(r.scenario.model.consequences)
+    out["individual_risk"] = [x.as_dict() for x in r.individual_risk] if r.individual_risk else None
     out["ensemble_size"] = r.ensemble_size.as_dict()
     from ..decision.reference_checks import reference_checks
 
@@ -56,3 +72,26 @@ def summary_dict(result) -> dict:
     out["units"] = r.scenario.units
     out["caution"] = CAUTION
     return to_plain(out)
+
+
+def _loading_dict(ld) -> dict:
+    """One loading's figures: headline records, failure modes and notes."""
+    d = {"kind": ld.kind, "has_hazard_ensemble": ld.has_hazard_ensemble}
+    d.update({k: h.as_dict() for k, h in ld.headline().items()})
+    d["failure_modes"] = {
+        m: {
+            "predictive": ld.predictive[f"afp_fm:{m}"],
+            "mode": ld.mode[f"afp_fm:{m}"],
+            "predictive_common_cause_adjusted": ld.predictive[f"afp_fm_adjusted:{m}"],
+            "mode_common_cause_adjusted": ld.mode[f"afp_fm_adjusted:{m}"],
+        }
+        for m in ld.failure_mode_names
+    }
+    return d
+
+
+def _exposure(cons):
+    """The exposure scenarios of the consequences (None when there is only one)."""
+    if cons.exposure_weights is None:
+        return None
+    return [{"name": n, "weight": float(w)} for n, w in zip(cons.exposure_names, cons.exposure_weights)]

@@ -99,8 +99,9 @@ def per_draw_table(result) -> pd.DataFrame:
 
 
 def fn_table(result) -> pd.DataFrame:
-    """F-N: annual probability of N or more fatalities on each curve (and ensemble percentiles)."""
-    fn = result.fn
+    """F-N: annual probability of N or more fatalities on each curve (and ensemble percentiles); the total over
+    loadings when the scenario has several."""
+    fn = result.overall_fn
     out = {
         "life_loss_n": fn["levels"],
         "f_predictive_per_yr": fn["predictive"],
@@ -162,9 +163,71 @@ def aep_band_table(result) -> pd.DataFrame:
     )
 
 
+def loading_table(result) -> pd.DataFrame:
+    """One row a loading and one a failure mode of each: predictive AFP, EAD, ALL and shares of the total."""
+    cur = result.scenario.units["currency"]
+    rows = result.study.breakdown()
+    df = pd.DataFrame(rows)
+    return df.rename(columns={"ead_predictive": f"ead_predictive_{cur}_per_yr"})
+
+
+def fn_by_loading_table(result) -> pd.DataFrame:
+    """F-N of every loading (long format) and of the total."""
+    parts = []
+    for ld in result.study.loadings:
+        parts.append(
+            pd.DataFrame(
+                {
+                    "loading": ld.name,
+                    "life_loss_n": ld.fn.levels,
+                    "f_predictive_per_yr": ld.fn.predictive,
+                    "f_mode_per_yr": ld.fn.mode,
+                }
+            )
+        )
+    fn = result.study.fn
+    parts.append(
+        pd.DataFrame(
+            {
+                "loading": "total",
+                "life_loss_n": fn.levels,
+                "f_predictive_per_yr": fn.predictive,
+                "f_mode_per_yr": fn.mode,
+            }
+        )
+    )
+    return pd.concat(parts, ignore_index=True)
+
+
+def individual_risk_table(result) -> pd.DataFrame:
+    """Individual risk of every location or group: predictive, mode and the 5-95 % of the draws."""
+    return pd.DataFrame(
+        [
+            {
+                "group": x.name,
+                "exposure": x.exposure,
+                "fatality_rate_given_failure": x.fatality_rate,
+                "individual_risk_predictive_per_yr": x.predictive,
+                "individual_risk_mode_per_yr": x.mode,
+                "individual_risk_p05_per_yr": x.p05,
+                "individual_risk_p50_per_yr": x.p50,
+                "individual_risk_p95_per_yr": x.p95,
+                "failure_modes_counted": "; ".join(x.failure_modes),
+            }
+            for x in result.individual_risk
+        ]
+    )
+
+
 def run_tables(result) -> dict:
     """The run's tidy tables, keyed by their file stem under ``tables/``."""
     q = result.curves.quantity
+    extra = {}
+    if result.study is not None:
+        extra["risk_by_loading"] = loading_table(result)
+        extra["fn_curve_by_loading"] = fn_by_loading_table(result)
+    if result.individual_risk:
+        extra["individual_risk"] = individual_risk_table(result)
     return {
         "per_draw": per_draw_table(result),
         "fn_curve": fn_table(result),
@@ -172,4 +235,5 @@ def run_tables(result) -> dict:
         "hazard_by_aep": hazard_by_aep(result.curves),
         f"response_by_{result.scenario.ensemble.quantity}": response_table(result),
         "risk_by_aep_band": aep_band_table(result),
+        **extra,
     }

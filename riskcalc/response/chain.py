@@ -15,6 +15,12 @@ and the integrands of the risk integrals are (:data:`OUTPUTS`)
     ead_incremental   P_f (D_b − D_nb)
     all               P_f L_b + (1 − P_f) L_nb
     all_incremental   P_f (L_b − L_nb)
+
+When failure modes name their own breach consequences (``mode_consequences``), the
+breach terms are shared among the modes by the proportional allocation below:
+P_f D_b becomes Σ_i a_i D_b,i with a_i = P_f P_i / Σ_j P_j, each mode's breach
+consequences from its own table and the no-breach consequences from the chain's
+(with one table for all modes the sum is P_f D_b again).
     afp_fm:<name>     P_i of each failure mode
     afp_fm_adjusted:<name>   P_f P_i / Σ_j P_j       (proportional common-cause adjustment)
 
@@ -96,6 +102,7 @@ class ResponseChain:
     natural: StageSpread | None = None
     uncertain: UncertainInputs | None = None
     hermite_nodes: int = 16
+    mode_consequences: tuple = ()
 
     def __post_init__(self):
         names = [m.name for m in self.failure_modes]
@@ -107,6 +114,25 @@ class ResponseChain:
             object.__setattr__(self, "uncertain", UncertainInputs((), len(names)))
         elif self.uncertain.n_failure_modes != len(names):
             raise ValueError("the uncertain inputs describe a different number of failure modes")
+        if self.mode_consequences and len(self.mode_consequences) != len(names):
+            raise ValueError("mode_consequences needs one entry (or None) per failure mode")
+
+    @property
+    def own_consequences(self) -> bool:
+        """True when some failure mode has its own breach consequences."""
+        return any(c is not None for c in self.mode_consequences)
+
+    def consequence_groups(self) -> list:
+        """Failure modes grouped by breach consequences: [(mode indices, ConsequenceCurves of the breach)].
+
+        The first group holds the modes with the chain's consequences (possibly none of them).
+        """
+        cons = self.mode_consequences or (None,) * len(self.failure_modes)
+        groups = [([i for i, c in enumerate(cons) if c is None], self.consequences)]
+        for i, c in enumerate(cons):
+            if c is not None:
+                groups.append(([i], c))
+        return groups
 
     # -- names -------------------------------------------------------------
     @property
@@ -150,10 +176,10 @@ class ResponseChain:
         """The chain bound to evaluation points (P,): stages and quadrature fixed once."""
         pts = np.asarray(points, float)
         h, w = self.stages(pts)
-        c = self.consequences
+        cs = [self.consequences] + [c for c in self.mode_consequences if c is not None]
         has = {
-            "damage": bool(np.any(c.damage_breach != 0) or np.any(c.damage_no_breach != 0)),
-            "life_loss": bool(np.any(c.life_loss_breach != 0) or np.any(c.life_loss_no_breach != 0)),
+            "damage": any(bool(np.any(c.damage_breach != 0) or np.any(c.damage_no_breach != 0)) for c in cs),
+            "life_loss": any(bool(np.any(c.life_loss_breach != 0) or np.any(c.life_loss_no_breach != 0)) for c in cs),
         }
         return ChainOnPoints(chain=self, points=pts, stage=h, node_weights=w, _has=has)
 
@@ -245,10 +271,11 @@ class ChainOnPoints:
         want_fm = [i for i, n in enumerate(ch.failure_mode_names) if failure_mode_output(n) in outputs]
         want_adj = [i for i, n in enumerate(ch.failure_mode_names) if failure_mode_output(n, True) in outputs]
         need_bound = "afp_lower_bound" in outputs
-        need_sum = "afp_upper_bound" in outputs or bool(want_adj)
-        need_pf = bool(want_adj) or any(
-            k in outputs for k in ("afp", "ead", "ead_incremental", "all", "all_incremental")
-        )
+        need_cons = any(k in outputs for k in ("ead", "ead_incremental", "all", "all_incremental"))
+        own = ch.own_consequences and need_cons
+        keep = set(want_adj) | (set(range(nm)) if own else set())
+        need_sum = "afp_upper_bound" in outputs or bool(keep)
+        need_pf = bool(keep) or need_cons or "afp" in outputs
         out = {}
         pf = bound = psum = None
         kept = {}
@@ -263,7 +290,7 @@ class ChainOnPoints:
             if need_sum:
                 pi = _take(p, inv)
                 psum = pi.copy() if psum is None else psum + pi
-                if i in want_adj:
+                if i in keep:
                     kept[i] = pi
             if not need_pf:
                 continue
@@ -282,7 +309,8 @@ class ChainOnPoints:
             out["afp_lower_bound"] = self._nodes(bound)
         if "afp_upper_bound" in outputs:
             out["afp_upper_bound"] = self._nodes(np.minimum(psum, 1.0))
-        if want_adj:
+        share = None
+        if keep:
             with np.errstate(invalid="ignore", divide="ignore"):
                 share = np.where(psum > 0, pf / np.where(psum > 0, psum, 1.0), 0.0)
             for i in want_adj:
@@ -306,10 +334,15 @@ class ChainOnPoints:
                             out[k] = zero
                     continue
                 # linear in stage, ends held (ConsequenceCurves.at); only the fields that are not zero
-                d_inc = (
-                    _take(np.interp(hc, c.stage, top - base), inv) if np.any(top != base) else np.zeros((1,) + h.shape)
-                )
-                part = pf * d_inc
+                if own:
+                    part = self._allocated_breach(has, hc, inv, pf, share, kept)
+                else:
+                    d_inc = (
+                        _take(np.interp(hc, c.stage, top - base), inv)
+                        if np.any(top != base)
+                        else np.zeros((1,) + h.shape)
+                    )
+                    part = pf * d_inc
                 if inc in outputs:
                     out[inc] = self._nodes(part)
                 if total in outputs:
@@ -320,6 +353,27 @@ class ChainOnPoints:
                     )
         shape = (U, self.size)
         return {k: np.broadcast_to(out[k], shape) for k in outputs}, invj
+
+    def _allocated_breach(self, has, hc, inv, pf, share, kept):
+        """Σ_groups a_g (X_b,g − X_nb) with a_g the allocated P_f of the group's modes (X damage or life loss)."""
+        ch = self.chain
+        field_b, field_nb = (
+            ("damage_breach", "damage_no_breach")
+            if has == "damage"
+            else (
+                "life_loss_breach",
+                "life_loss_no_breach",
+            )
+        )
+        base = getattr(ch.consequences, field_nb)
+        part = 0.0
+        for idx, cg in ch.consequence_groups():
+            if not idx:
+                continue
+            a = share * sum(kept[i] for i in idx)
+            top = np.interp(hc, cg.stage, getattr(cg, field_b)) - np.interp(hc, ch.consequences.stage, base)
+            part = part + a * _take(top, inv)
+        return part
 
     def factors(self, params: ResponseParameters, outputs) -> np.ndarray:
         """Consequence factor of each output and draw: (K, B) (1 for probabilities)."""
@@ -358,52 +412,97 @@ class ChainOnPoints:
         return np.stack([g[k][0] for k in outputs], axis=1) * self.factors(p, outputs)[:, 0]
 
     def incremental_life_loss(self, params: ResponseParameters | None = None) -> np.ndarray:
-        """Incremental life loss L_b − L_nb at every point and node: (D, P, n) (nominal: D = 1)."""
+        """Incremental life loss L_b − L_nb at every point and node: (D, P, n) (nominal: D = 1).
+
+        With several exposure scenarios or breach-consequence tables: every (table, scenario) curve
+        stacked on the first axis, (G E D, P, n), for ranges; :meth:`fn_rows` keeps them apart.
+        """
         p = self.chain.uncertain.nominal(1) if params is None else params
-        c = self.chain.consequences
+        parts = [inc for _, _, inc in self._life_loss_cases(p)]
+        return parts[0] if len(parts) == 1 else np.concatenate(parts, axis=0)
+
+    def _life_loss_cases(self, p: ResponseParameters):
+        """(mode indices, exposure weight, incremental life loss (D, P, n)) per breach table and exposure scenario."""
+        ch = self.chain
         h = self.stage[None] + p.stage_offset[:, None, None]
-        return np.interp(h, c.stage, c.life_loss_breach - c.life_loss_no_breach) * p.life_loss_factor[:, None, None]
+        base_c = ch.consequences
+        _, _, lnb = base_c.by_exposure()
+        out = []
+        for idx, cg in ch.consequence_groups():
+            if not idx:
+                continue
+            we, lb, _ = cg.by_exposure()
+            if lb.shape[0] != lnb.shape[0]:
+                raise ValueError("a failure mode's consequence table has a different set of exposure scenarios")
+            for e in range(we.size):
+                inc = np.interp(h, cg.stage, lb[e]) - np.interp(h, base_c.stage, lnb[e])
+                out.append((idx, float(we[e]), inc * p.life_loss_factor[:, None, None]))
+        return out
 
     def fn_integrand(self, levels, params: ResponseParameters | None = None) -> np.ndarray:
-        """F-N integrand: E_ε[P_f(h + ε) 1[L_inc(h + ε) >= N]] at every point and level: (D, P, L).
+        """F-N integrand: E_ε[Σ_g,e π_e a_g 1[L_inc,g,e(h + ε) >= N]] at every point and level: (D, P, L).
 
         With ``params`` None the nominal response (D = 1). L_inc is the incremental life loss (given breach
-        minus given no breach), the life loss the failure causes.
+        minus given no breach), the life loss the failure causes; g runs over the breach-consequence
+        tables (a_g the P_f allocated to their modes) and e over the exposure scenarios (weights π_e).
         """
         p = self.chain.uncertain.nominal(1) if params is None else params
         lv = np.asarray(levels, float)
-        pf_nodes = self._pf_at_nodes(p)  # (D, P, n)
-        inc = self.incremental_life_loss(p)  # (D, P, n)
-        ind = inc[..., None] >= lv  # (D, P, n, L)
-        return np.einsum("dpn,dpnl,n->dpl", pf_nodes, ind, self.node_weights)
+        out = 0.0
+        for a, we, inc in self._allocated_cases(p):
+            ind = inc[..., None] >= lv  # (D, P, n, L)
+            out = out + we * np.einsum("dpn,dpnl,n->dpl", a, ind, self.node_weights)
+        return out
+
+    def _allocated_cases(self, p: ResponseParameters):
+        """(allocated P_f (D, P, n), exposure weight, incremental life loss (D, P, n)) per case."""
+        cases = self._life_loss_cases(p)
+        probs = self._pf_at_nodes(p, groups=[c[0] for c in cases])
+        return [(a, we, inc) for a, (_, we, inc) in zip(probs, cases)]
 
     def fn_rows(self, masses, params: ResponseParameters, levels) -> np.ndarray:
         """F-N of B draws: masses (B, P) against their response parameters -> F (B, L).
 
-        F_b(N) = Σ_p w[b, p] E_ε[P_f 1[L_inc >= N]] with the draw's own offsets, shifts, spreads and
-        life-loss factor: each (point, node) adds its probability w P_f to every level at or below its
-        incremental life loss (a weighted histogram over the levels, summed from the top).
+        F_b(N) = Σ_p w[b, p] E_ε[Σ_g,e π_e a_g 1[L_inc,g,e >= N]] with the draw's own offsets, shifts,
+        spreads and life-loss factor: each (point, node, case) adds its probability to every level at or
+        below its incremental life loss (a weighted histogram over the levels, summed from the top).
         """
         w = np.asarray(masses, float)
         lv = np.asarray(levels, float)
         B, L = params.size, lv.size
-        pf = self._pf_at_nodes(params)  # (B, P, n)
-        inc = self.incremental_life_loss(params)  # (B, P, n)
-        prob = w[:, :, None] * pf * self.node_weights[None, None, :]
-        k = np.searchsorted(lv, inc, side="right")  # levels at or below the life loss: F(N_l) for l < k
-        flat = (np.arange(B)[:, None, None] * (L + 1) + k).ravel()
-        hist = np.bincount(flat, weights=prob.ravel(), minlength=B * (L + 1)).reshape(B, L + 1)
+        hist = np.zeros(B * (L + 1))
+        for a, we, inc in self._allocated_cases(params):
+            prob = we * w[:, :, None] * a * self.node_weights[None, None, :]
+            k = np.searchsorted(lv, inc, side="right")  # levels at or below the life loss: F(N_l) for l < k
+            flat = (np.arange(B)[:, None, None] * (L + 1) + k).ravel()
+            hist += np.bincount(flat, weights=prob.ravel(), minlength=B * (L + 1))
+        hist = hist.reshape(B, L + 1)
         return np.cumsum(hist[:, :0:-1], axis=1)[:, ::-1]
 
-    def _pf_at_nodes(self, p: ResponseParameters) -> np.ndarray:
-        """System P_f at every draw, point and node, not yet averaged: (D, P, n)."""
+    def _pf_at_nodes(self, p: ResponseParameters, groups=None):
+        """System P_f at every draw, point and node, not yet averaged: (D, P, n).
+
+        With ``groups`` (lists of mode indices): the P_f allocated to each group, a_g = P_f Σ_{i∈g} P_i / Σ_j P_j,
+        as a list of (D, P, n) arrays.
+        """
         h = self.stage[None] + p.stage_offset[:, None, None]
         lp = np.zeros(np.broadcast_shapes(h.shape))
+        probs = []
         for i, mode in enumerate(self.chain.failure_modes):
             q = np.clip(mode.prob(h, p.fm_shift[i][:, None, None], p.fm_spread[i][:, None, None]), 0.0, 1.0)
+            q = np.broadcast_to(q, lp.shape)
+            probs.append(q)
             with np.errstate(divide="ignore"):
                 lp += np.log1p(-q)
-        return -np.expm1(lp)
+        pf = -np.expm1(lp)
+        if groups is None:
+            return pf
+        if len(groups) == 1 and len(groups[0]) == len(probs):
+            return [pf]
+        total = sum(probs)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            share = np.where(total > 0, pf / np.where(total > 0, total, 1.0), 0.0)
+        return [share * sum(probs[i] for i in g) for g in groups]
 
     def max_incremental_life_loss(self) -> float:
         """Largest nominal incremental life loss at the points (over the quadrature nodes)."""

@@ -311,7 +311,49 @@ def _provenance(sc, grid, rule, k, ens, chain) -> dict:
     }
 
 
-def assess(scenario, *, workers=None, progress=None, draws_per_realization=None, grid_points=None) -> RiskResult:
+def scenario_life_loss_range(sc) -> tuple:
+    """The incremental life-loss range of a scenario's flood loading on its grid (for common F-N levels)."""
+    ens, chain = sc.ensemble, sc.model
+    grid = build_grid(ens, (chain,), sc.grid, sc.mode_params)
+    return _life_loss_range(chain.on(evaluation_points(grid, ens.log_scale, "midpoint")), chain)
+
+
+def _study_levels(sc, own_range) -> np.ndarray:
+    """F-N levels covering the life loss of every loading of the study."""
+    from .loadings import loading_life_loss_range
+
+    ranges = [own_range]
+    for ld in sc.loadings:
+        r = scenario_life_loss_range(ld.scenario) if ld.kind == "flood" else loading_life_loss_range(ld, sc.model)
+        if r is not None and r[1] > 0:
+            ranges.append(r)
+    return fn_levels(min(r[0] for r in ranges), max(r[1] for r in ranges))
+
+
+def _study(sc, res, levels, workers):
+    """The other loadings of the study, their total and the individual risks (None, () when there are none)."""
+    from .loadings import assess_seismic, assess_static, combine_loadings, individual_risks, loading_from_risk
+
+    results = [loading_from_risk(res, "flood")]
+    root = np.random.SeedSequence([int(sc.seed), 0x10AD])
+    streams = root.spawn(len(sc.loadings) + 1)
+    n = res.propagation.weights.size
+    for ld, ss in zip(sc.loadings, streams):
+        if ld.kind == "flood":
+            sub = assess(ld.scenario, workers=workers, fn_levels_override=levels)
+            results.append(loading_from_risk(sub, ld.name))
+        elif ld.kind == "seismic":
+            results.append(assess_seismic(ld, sc.model, levels, n, ss))
+        else:
+            results.append(assess_static(ld, sc.model, levels, n, ss))
+    study = combine_loadings(results, streams[-1])
+    irs = individual_risks(results, study.picks, study.weights, sc.individual_risk) if sc.individual_risk else ()
+    return (study if sc.loadings else None), irs
+
+
+def assess(
+    scenario, *, workers=None, progress=None, draws_per_realization=None, grid_points=None, fn_levels_override=None
+) -> RiskResult:
     """Run the whole risk chain for a :class:`~riskcalc.config.scenario.Scenario`.
 
     Parameters
@@ -335,7 +377,12 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
     k = int(draws_per_realization or sc.uncertainty["draws_per_realization"]) if chain.has_knowledge_uncertainty else 1
     nw = workers or sc.uncertainty.get("workers") or default_workers()
     on_mid = chain.on(evaluation_points(grid, log_spacing, "midpoint"))
-    levels = fn_levels(*_life_loss_range(on_mid, chain))
+    if fn_levels_override is not None:
+        levels = np.asarray(fn_levels_override, float)
+    elif getattr(sc, "loadings", ()):
+        levels = _study_levels(sc, _life_loss_range(on_mid, chain))
+    else:
+        levels = fn_levels(*_life_loss_range(on_mid, chain))
     prop = propagate(
         ens,
         chain,
@@ -436,7 +483,7 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
             "response: the per-draw F-N table was too large to keep, so the predictive F-N omits the "
             "sampled response uncertainty"
         )
-    return RiskResult(
+    result = RiskResult(
         scenario=sc,
         grid=grid,
         curves=curves,
@@ -457,3 +504,16 @@ def assess(scenario, *, workers=None, progress=None, draws_per_realization=None,
         crest_stage=crest_stage,
         provenance=_provenance(sc, grid, rule, k, ens, chain),
     )
+    if getattr(sc, "loadings", ()) or getattr(sc, "individual_risk", ()):
+        import dataclasses
+
+        study, irs = _study(sc, result, levels, nw)
+        if study is not None:
+            notes = notes + [n for ld in study.loadings for n in ld.notes]
+            notes.append(
+                "the headline figures are totals over the loadings (flood"
+                + "".join(f", {ld.name}" for ld in study.loadings[1:])
+                + "), taken as independent; sensitivity indices and alternatives cover the flood loading"
+            )
+        result = dataclasses.replace(result, study=study, individual_risk=irs, notes=notes)
+    return result

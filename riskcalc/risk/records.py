@@ -322,6 +322,11 @@ class RiskResult:
     provenance : dict
     sensitivity : dict or None
     extras : dict
+    study : StudyResult or None
+        The loadings, their total and breakdown (:mod:`riskcalc.risk.loadings`) when the scenario has
+        ``[[loadings]]``; the headline records above are then the flood loading's and :attr:`overall`
+        the total.
+    individual_risk : tuple of IndividualRisk
     """
 
     scenario: Any
@@ -345,6 +350,18 @@ class RiskResult:
     sensitivity: dict | None = None
     crest_stage: CrestStageCheck | None = None
     extras: dict = field(default_factory=dict)
+    study: Any = None
+    individual_risk: tuple = ()
+
+    @property
+    def overall(self) -> dict:
+        """The headline records of the whole study: the total over loadings, or the flood loading's."""
+        return self.study.headline if self.study is not None else self.headline
+
+    @property
+    def overall_fn(self):
+        """The F-N curves of the whole study (total over loadings), or the flood loading's."""
+        return self.study.fn if self.study is not None else self.fn
 
     def tables(self) -> dict:
         """The run's tidy tables as pandas DataFrames, keyed by their file stem under ``tables/``."""
