@@ -119,14 +119,18 @@ def test_static_node_with_annual_probability_p_gives_afp_p(tmp_path):
 
 
 def test_static_lognormal_probability_mean(tmp_path):
-    """Stratified draws of a lognormal annual probability reproduce its mean median·exp(β²/2) (closed form)."""
+    """Stratified draws of a lognormal annual probability reproduce its mean median·exp(β²/2) (closed form),
+    within four reported standard errors."""
     extra = STATIC.format(stage=4.0, p=1e-4).replace(
         'distribution = "fixed", value = 0.0001', 'distribution = "lognormal", median = 1e-5, beta = 0.8'
     )
     path = write_scenario(tmp_path / "s", toml_extra=extra)
     (tmp_path / "s" / "dry.csv").write_text(DRY)
     st = assess(load_scenario(path)).study.loadings[1]
-    assert st.predictive["afp"] == pytest.approx(1e-5 * math.exp(0.32), rel=2e-3)
+    exact = 1e-5 * math.exp(0.32)
+    se = st.standard_error("afp")
+    assert 0 < se < 0.02 * exact
+    assert abs(st.predictive["afp"] - exact) < 4 * se
     assert st.mode["afp"] == pytest.approx(1e-5)
 
 
@@ -477,3 +481,30 @@ def test_scenario_without_loadings_has_no_study_keys(tmp_path):
     assert r.study is None and r.overall is r.headline
     s = r.summary()
     assert "loadings" not in s and s["individual_risk"] is None and s["exposure"] is None
+
+
+def test_standard_error_of_stratified_replicates_matches_reruns(tmp_path):
+    """The reported standard error of a static loading (spread of independent stratified replicates) agrees
+    with the spread of its predictive AFP and ALL over independent reruns (the definition of a standard error)."""
+    from riskcalc.risk.loadings import assess_static
+
+    extra = STATIC.format(stage=4.0, p=1e-4).replace(
+        'distribution = "fixed", value = 0.0001', 'distribution = "lognormal", median = 1e-5, beta = 1.5'
+    )
+    extra += '\n[consequences.life_loss_multiplier]\ndistribution = "lognormal"\nmedian = 1.0\nbeta = 0.7\n'
+    path = write_scenario(tmp_path / "s", toml_extra="")
+    text = path.read_text().replace('[consequences]\ntable = "consequences.csv"\n', "")
+    path.write_text(
+        text + '\n[consequences]\ntable = "consequences.csv"\n' + extra.replace("[consequences.", "[consequences.")
+    )
+    (tmp_path / "s" / "dry.csv").write_text(DRY)
+    sc = load_scenario(path)
+    ld = sc.loadings[0]
+    vals, ses = [], []
+    for seed in range(60):
+        r = assess_static(ld, sc.model, np.array([1.0]), 400, seed)
+        vals.append([r.predictive["afp"], r.predictive["all"]])
+        ses.append([r.standard_error("afp"), r.standard_error("all")])
+    observed = np.std(vals, axis=0, ddof=1)
+    reported = np.sqrt(np.mean(np.square(ses), axis=0))
+    assert np.all(reported > 0.7 * observed) and np.all(reported < 1.4 * observed), (reported, observed)

@@ -36,6 +36,11 @@ References
 .. [1] Cornell, C.A., Jalayer, F., Hamburger, R.O. and Foutch, D.A. (2002).
    Probabilistic basis for 2000 SAC Federal Emergency Management Agency steel
    moment frame guidelines. Journal of Structural Engineering 128(4), 526-533.
+.. [3] Iman, R.L. (1981). Statistical methods for including uncertainties associated with the geologic
+   isolation of radioactive waste which allow for a comparison with licensing criteria. In Proceedings
+   of the Symposium on Uncertainties Associated with the Regulation of the Geologic Disposal of
+   High-Level Radioactive Waste, NUREG/CP-0022, 145-157 (replicated Latin hypercube sampling)
+   [from memory; check the reference].
 .. [2] Ang, A.H.-S. and Tang, W.H. (1984). Probability Concepts in Engineering
    Planning and Design, Vol. II. Wiley (bounds of a series system).
 """
@@ -116,25 +121,17 @@ class LoadingResult:
     def standard_error(self, name) -> float:
         """Monte Carlo standard error of the predictive value of output ``name``.
 
-        ``clustered``: the draws of one hazard realization form a cluster (a sampled ensemble);
-        ``within``: the hazard curves are an enumerated logic tree (weights exact), so only the response
-        draws within each curve are random: SE² = Σ_r W_r² s_r² / k_r with W_r the curve's weight, s_r² the
-        sample variance of its k_r draws; ``independent``: sqrt(Σ w_d² (v_d − v̄)²), an upper bound for the
-        stratified draws of a static loading.
+        ``clustered``: the draws of one hazard realization form a cluster (a sampled ensemble, the flood);
+        ``replicates``: the draws are :data:`REPLICATES` independent stratified replicates (draw d belongs to
+        replicate d mod G), so SE = sd of the G replicate means / sqrt(G), unbiased for the variance of
+        their mean whatever the stratification gains (replicated Latin hypercube sampling, Iman 1981).
         """
         v, w, c = self.column(name), self.weights, self.cluster
         if self.se_method == "clustered":
             return clustered_standard_error(v, w, c)
-        if self.se_method == "within":
-            total = 0.0
-            for r in np.unique(c):
-                sel = c == r
-                k = int(sel.sum())
-                if k < 2:
-                    continue
-                total += float(w[sel].sum()) ** 2 * float(np.var(v[sel], ddof=1)) / k
-            return float(np.sqrt(total))
-        return float(np.sqrt(np.sum((w * (v - w @ v)) ** 2)))
+        g = np.arange(v.size) % REPLICATES
+        means = np.array([(w[g == j] @ v[g == j]) / w[g == j].sum() for j in range(REPLICATES)])
+        return float(np.std(means, ddof=1) / np.sqrt(REPLICATES))
 
     def column(self, name) -> np.ndarray:
         return self.values[:, self.names.index(name)]
@@ -234,11 +231,24 @@ class StudyResult:
 # ---------------------------------------------------------------------------------------------------
 
 
+#: Independent replicates of the stratified draws of seismic and static loadings (for their standard errors).
+REPLICATES = 10
+
+
 def _stratified(rng, n, k=1):
-    """(k, n) stratified uniforms: one uniform point in each of the n strata [j/n, (j+1)/n), in an independent
-    random order per row. Unbiased for any mean (unlike stratum midpoints, which miss the tails), with a
-    variance no larger than plain random sampling."""
-    return np.stack([rng.permutation((np.arange(n) + rng.random(n)) / n) for _ in range(k)])
+    """(k, n) stratified uniforms in :data:`REPLICATES` independent replicates (draw d in replicate d mod G).
+
+    Within a replicate of m draws every row has one uniform point in each of the m strata [j/m, (j+1)/m), in
+    an independent random order per row (a Latin hypercube across rows). Unbiased for any mean (unlike
+    stratum midpoints, which miss the tails), with a variance no larger than plain random sampling.
+    """
+    u = np.empty((k, n))
+    for g in range(min(REPLICATES, n)):
+        idx = np.arange(g, n, REPLICATES)
+        m = idx.size
+        for row in range(k):
+            u[row, idx] = rng.permutation((np.arange(m) + rng.random(m)) / m)
+    return u
 
 
 def _factors(chain, rng, n):
@@ -369,7 +379,7 @@ def assess_seismic(ld, chain, levels, n_draws, seed) -> LoadingResult:
     )
     R = hz.size
     want = int(ld.draws or n_draws or R)
-    k = max(1, -(-want // R)) if uncertain_response else 1
+    k = REPLICATES * max(1, -(-want // (R * REPLICATES))) if uncertain_response else 1
     D = R * k
     real = np.repeat(np.arange(R), k)
     weights = np.repeat(hz.weights / k, k)
@@ -429,7 +439,8 @@ def assess_seismic(ld, chain, levels, n_draws, seed) -> LoadingResult:
     above = float(hz.weights @ hz.frequency[:, -1])
     notes = [
         f"{ld.name}: {R} hazard curve(s) of {hz.measure} taken as an enumerated logic tree (weights exact; the "
-        f"standard errors count only the response draws within each curve), {k} response draw(s) each; "
+        f"standard errors count only the response draws, from {REPLICATES} independent stratified replicates), "
+        f"{k} response draw(s) each; "
         f"{pool_s.size} pool level(s); frequency of ground motion above the table's last level "
         f"{above:.3g} per year is evaluated at that level"
     ]
@@ -448,7 +459,7 @@ def assess_seismic(ld, chain, levels, n_draws, seed) -> LoadingResult:
         fn_draws=fn_d,
         failure_mode_names=ld.failure_mode_names,
         notes=notes,
-        se_method="within",
+        se_method="replicates" if k > 1 else "clustered",
     )
 
 
@@ -491,6 +502,7 @@ def assess_static(ld, chain, levels, n_draws, seed) -> LoadingResult:
         p.target in ("damage_factor", "life_loss_factor") for p in chain.uncertain.parameters
     )
     D = int(ld.draws or max(int(n_draws or 0), 4000)) if uncertain else 1
+    D = REPLICATES * max(1, -(-D // REPLICATES)) if uncertain else 1
     u = _stratified(rng, D, len(ld.failure_modes))
     p_modes = np.stack([m.probability.ppf(u[i]) for i, m in enumerate(ld.failure_modes)])
     df, lf, dn, ln = _factors(chain, rng, D)
@@ -525,11 +537,11 @@ def assess_static(ld, chain, levels, n_draws, seed) -> LoadingResult:
         fn_draws=fn_d,
         failure_mode_names=ld.failure_mode_names,
         has_hazard_ensemble=False,
-        se_method="independent",
+        se_method="replicates" if D > 1 else "clustered",
         notes=[
             f"{ld.name}: no hazard curve; {D} stratified draw(s) of the annual probabilities; the 'mode' and "
             "'median curve' figures are the nominal probabilities (median, mode or value of each distribution); its "
-            "standard errors use the independent-draw formula, an upper bound for stratified draws"
+            f"standard errors come from {REPLICATES} independent stratified replicates"
         ],
     )
 
