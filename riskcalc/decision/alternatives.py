@@ -365,7 +365,7 @@ def _fn_point(afp, all_incremental, lines):
 
 
 def condition_year_figures(
-    risk: PlanRisk, weights, lines, base: PlanRisk | None = None, condition: str = "base year"
+    risk: PlanRisk, weights, lines, base: PlanRisk | None = None, condition: str = "base year", realization=None
 ) -> dict:
     """The risk of one plan in one condition year, not discounted, against the reference lines.
 
@@ -380,6 +380,8 @@ def condition_year_figures(
         The without-project plan in the same year: adds the reductions (paired per draw).
     condition : str
         ``"base year"`` or ``"future year"``.
+    realization : ndarray (D,) of int, optional
+        Hazard realization of each draw: the standard errors treat a realization's draws as a cluster.
 
     Returns
     -------
@@ -410,9 +412,13 @@ def condition_year_figures(
     out = {
         "year": risk.year,
         "condition": condition,
-        "afp_per_yr": {"predictive": pred["afp"], "mode": mo["afp"], "ensemble": _stats(v["afp"], w)},
+        "afp_per_yr": {"predictive": pred["afp"], "mode": mo["afp"], "ensemble": _stats(v["afp"], w, realization)},
         "ead_per_yr": {"predictive": pred["ead"], "mode": mo["ead"]},
-        "all_lives_per_yr": {"predictive": pred["all"], "mode": mo["all"], "ensemble": _stats(v["all"], w)},
+        "all_lives_per_yr": {
+            "predictive": pred["all"],
+            "mode": mo["all"],
+            "ensemble": _stats(v["all"], w, realization),
+        },
         "all_incremental_lives_per_yr": {"predictive": pred["all_incremental"], "mode": mo["all_incremental"]},
         "fn_point": _fn_point(pred["afp"], pred["all_incremental"], lines),
         "reference_lines": checks,
@@ -421,7 +427,7 @@ def condition_year_figures(
     if base is not None:
         for key, n in (("afp_reduction_per_yr", "afp"), ("all_reduction_lives_per_yr", "all")):
             d = base.values[n] - v[n]
-            out[key] = {"predictive": float(w @ d), "mode": base.mode[n] - mo[n], "ensemble": _stats(d, w)}
+            out[key] = {"predictive": float(w @ d), "mode": base.mode[n] - mo[n], "ensemble": _stats(d, w, realization)}
     return out
 
 
@@ -429,8 +435,14 @@ def _conditions(settings) -> list[str]:
     return ["base year" if k == 0 else "future year" for k in range(len(settings.years))]
 
 
-def _stats(values, weights):
+def _stats(values, weights, realization=None):
+    """Mean, percentiles and the Monte Carlo standard error; with ``realization``, the draws of one hazard
+    realization are a cluster (they share its curve), as for the run's headline figures."""
     s, se = weighted_summary(values, weights)
+    if realization is not None:
+        from ..risk.standard_errors import clustered_standard_error
+
+        se = clustered_standard_error(values, weights, realization)
     return {**s.as_dict(), "mc_standard_error": se}
 
 
@@ -491,7 +503,7 @@ def compare(scenario, *, workers=None) -> Comparison:
                 **fac,
             )
     ev = evaluate_plans(scenario, models, ensembles, workers=workers)
-    risks, w = ev["risks"], ev["weights"]
+    risks, w, rz = ev["risks"], ev["weights"], ev["realization"]
     equivalent, equivalent_mode = {}, {}
     for plan, rs in risks.items():
         equivalent[plan] = {n: _annualize(np.stack([r.values[n] for r in rs], axis=-1), settings) for n in MEASURES}
@@ -548,7 +560,7 @@ def compare(scenario, *, workers=None) -> Comparison:
             "mode": float(ec.net_cost_per_life_saved(cost, mode_b, mode_d_all)),
         }
         years = [
-            condition_year_figures(r, w, all_lines, base=b, condition=cnd)
+            condition_year_figures(r, w, all_lines, base=b, condition=cnd, realization=rz)
             for r, b, cnd in zip(risks[a.name], risks[BASE_NAME], conditions)
         ]
         figures[a.name] = {
@@ -564,33 +576,33 @@ def compare(scenario, *, workers=None) -> Comparison:
             "expected_annual_damage_per_yr": {
                 "predictive": float(w @ eq["ead"]),
                 "mode": mo["ead"],
-                "ensemble": _stats(eq["ead"], w),
+                "ensemble": _stats(eq["ead"], w, rz),
             },
             "expected_annual_benefit_per_yr": {
                 "predictive": mean_b,
                 "mode": mode_b,
                 "ratio_predictive_to_mode": _ratio(mean_b, mode_b),
-                "ensemble": _stats(res.expected_annual_benefit, w),
+                "ensemble": _stats(res.expected_annual_benefit, w, rz),
             },
             "net_benefit_per_yr": {
                 "predictive": mean_b - cost,
                 "mode": mode_b - cost,
-                "ensemble": _stats(res.net_benefit, w),
+                "ensemble": _stats(res.net_benefit, w, rz),
             },
             "benefit_cost_ratio": {
                 "predictive": float(head.benefit_cost_ratio),
                 "mode": float(mode_res.benefit_cost_ratio),
-                "ensemble": _stats(res.benefit_cost_ratio, w),
+                "ensemble": _stats(res.benefit_cost_ratio, w, rz),
             },
             "afp_reduction_per_yr": {
                 "predictive": mean_dafp,
                 "mode": base_mode["afp"] - mo["afp"],
-                "ensemble": _stats(base_eq["afp"] - eq["afp"], w),
+                "ensemble": _stats(base_eq["afp"] - eq["afp"], w, rz),
             },
             "all_reduction_lives_per_yr": {
                 "predictive": mean_dall,
                 "mode": float(mode_res.life_loss_reduction),
-                "ensemble": _stats(res.life_loss_reduction, w),
+                "ensemble": _stats(res.life_loss_reduction, w, rz),
             },
             "cost_per_statistical_life_saved": {
                 "predictive": float(head.cost_per_life_saved),
@@ -609,7 +621,7 @@ def compare(scenario, *, workers=None) -> Comparison:
             "all_reduction_lives_per_yr_undiscounted": {
                 "predictive": mean_d_all,
                 "mode": mode_d_all,
-                "ensemble": _stats(d_all, w),
+                "ensemble": _stats(d_all, w, rz),
             },
             "net_cost_per_statistical_life_saved": net_cost,
         }
