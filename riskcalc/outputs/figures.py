@@ -844,7 +844,7 @@ def run_figures(result, folder):
     paths += plot_response(result, folder / "response_curves")
     paths += plot_consequences(result, folder / "consequence_curves")
     paths += plot_risk_distributions(result, folder / "risk_distributions")
-    paths += plot_fn(result, scenario_guidelines(sc), folder / "fn_chart")
+    paths += plot_fn(result, None, folder / "fn_chart")  # None: the lines and their origin from the scenario
     paths += plot_contributions(result, folder / "risk_by_aep_band")
     if getattr(result, "study", None) is not None:
         from .study_figures import plot_loadings
