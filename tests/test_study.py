@@ -508,3 +508,32 @@ def test_standard_error_of_stratified_replicates_matches_reruns(tmp_path):
     observed = np.std(vals, axis=0, ddof=1)
     reported = np.sqrt(np.mean(np.square(ses), axis=0))
     assert np.all(reported > 0.7 * observed) and np.all(reported < 1.4 * observed), (reported, observed)
+
+
+def test_mixed_graham_and_direct_tables_need_an_explicit_multiplier(tmp_path, capsys):
+    """Graham's range becomes one factor on all life loss, so a scenario mixing Graham-rate tables with tables
+    of direct life loss must give its own multiplier (refused with one line otherwise)."""
+    d = tmp_path / "mix"
+    extra = '[consequence_tables]\ngraham = "g.csv"\n[life_loss]\nwarning_hours = 0.5\n' + TWO_MODES.replace(
+        'consequences = "pipe_breach"', 'consequences = "graham"'
+    )
+    path = write_scenario(d, modes="", toml_extra=extra)
+    (d / "g.csv").write_text("stage_m,population_at_risk,depth_velocity_breach_m2s\n1,10,1\n8,100,6\n")
+    code, _, err = _cli(["check", path], capsys)
+    assert code == 2 and "others do not; give [consequences] life_loss_multiplier" in err
+    path = write_scenario(
+        d,
+        modes="",
+        toml_extra=extra.replace("warning_hours = 0.5\n", 'warning_hours = 0.5\nrate_uncertainty = "none"\n'),
+    )
+    code, out, err = _cli(["check", path], capsys)
+    assert code == 0, err
+
+
+def test_warnings_of_a_study_name_the_flood_loading(tmp_path):
+    """In a study the run's warnings (computed on the flood loading) say so."""
+    path = write_scenario(tmp_path / "s", toml_extra=STATIC.format(stage=4.0, p=1e-4))
+    (tmp_path / "s" / "dry.csv").write_text(DRY)
+    r = assess(load_scenario(path))
+    assert all(w.startswith("flood loading: ") for w in r.warnings)
+    assert r.summary()["annual_failure_probability_bounds"]["applies_to"].startswith("the flood loading")

@@ -73,7 +73,7 @@ def reference_line_lines(comparison) -> list[str]:
         for k in y["reference_lines"]:
             if k["kind"] != "individual_risk":
                 lines.append(f"      {k['line']}: {position_text(k)}")
-    lines.append("Individual risk is not assessed (riskcalc does not compute it).")
+    lines.append("Individual risk is not assessed for the alternatives (see the run's [[individual_risk]] groups).")
     return lines
 
 

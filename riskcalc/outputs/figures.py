@@ -511,6 +511,7 @@ def plot_consequences(result, path_stem=None):
 def plot_risk_distributions(result, path_stem=None):
     """AFP, EAD and ALL across the Monte Carlo draws (weighted histograms, log axes), predictive and mode marked."""
     prop = result.propagation
+    study = getattr(result, "study", None)
     cur = result.scenario.units["currency"]
     panels = (("afp", "annual_failure_probability"), ("ead", "expected_annual_damage"), ("all", "annualized_life_loss"))
     with plt.rc_context(_rc()):
@@ -518,9 +519,10 @@ def plot_risk_distributions(result, path_stem=None):
         for ax, (n, key) in zip(axes, panels):
             o = output_label(key)
             fmt, label = o.fmt, o.axis(cur)
-            h = result.headline[key]
+            h = result.overall[key]  # the total over loadings when the scenario has several
             e = h["ensemble"]
-            n_out, _ = _weighted_hist(ax, prop.column(n), prop.weights)
+            vals, wts = (prop.column(n), prop.weights) if study is None else (study.draws[n], study.weights)
+            n_out, _ = _weighted_hist(ax, vals, wts)
             if e["p95"] > 0 and e["p05"] > 0:
                 ax.axvspan(e["p05"], e["p95"], color=STYLE["band"]["color"], alpha=0.25, lw=0, label="5–95 % of draws")
             if h["predictive"] > 0:
@@ -528,7 +530,7 @@ def plot_risk_distributions(result, path_stem=None):
             if h["mode"] > 0:
                 _vline(ax, h["mode"], "mode", f"mode curve {fmt(h['mode'])}")
             ax.set_xlabel(label)
-            ax.set_title(f"{o.short} across the ensemble")
+            ax.set_title(f"{o.short} across the ensemble" + (" (total)" if study is not None else ""))
             if n_out:
                 ax.plot([], [], " ", label=f"({n_out} draw(s) at 0 not shown)")
             ax.legend(loc="upper left", fontsize=7.5)

@@ -76,8 +76,8 @@ FIGURE_CAPTIONS = {
     "response_curves": "Rating (peak stage against peak discharge) and system response (probability of failure "
     "given stage, per failure mode and for the system).",
     "consequence_curves": "Consequences against peak stage: damage and life loss given breach and given no breach.",
-    "risk_distributions": "AFP, EAD and ALL of every Monte Carlo draw (weighted), with the predictive value and the "
-    "mode-curve value marked.",
+    "risk_distributions": "AFP, EAD and ALL of every Monte Carlo draw (weighted; the paired totals over loadings when "
+    "there are several), with the predictive value and the mode-curve value marked.",
     "fn_chart": "F-N curve (annual probability of N or more fatalities) and f-N point against the reference lines.",
     "risk_by_aep_band": "Where the risk comes from: share of the predictive AFP, EAD and ALL from floods in each AEP "
     "band.",
@@ -869,7 +869,10 @@ def _loading_blocks(summary: dict, cur: str) -> list:
                 f"Total AFP as the sum over loadings {fmt_num(comb['rare_event_sum'])}; as independent loadings "
                 f"1 - prod(1 - AFP) = {fmt_num(comb['independent'])}; any dependence between loadings gives a value "
                 f"between {fmt_num(comb['lower_bound'])} and {fmt_num(comb['upper_bound'])}. The failure-mode split "
-                "is in tables/risk_by_loading.csv. Sensitivity indices and alternatives cover the flood loading.",
+                "is in tables/risk_by_loading.csv. Sensitivity indices and alternatives cover the flood loading. A "
+                "loading without a hazard ensemble (normal operation) enters the mode-curve figures with its nominal "
+                "probabilities (the median or mode of each distribution), so part of the total predictive / mode "
+                "ratio is the mean-to-median ratio of those probabilities, not the choice of one hazard curve.",
             ),
         ]
     for x in summary.get("individual_risk") or []:
@@ -1035,16 +1038,30 @@ def _caution_blocks(summary: dict) -> list[Block]:
     ext = summary.get("extrapolation", {}) or {}
     tr = summary.get("truncation", {}) or {}
     b = summary.get("annual_failure_probability_bounds", {}) or {}
+    loads = summary.get("loadings") or {}
+    if loads:
+        modes = [f"{name}: {m}" for name, d in loads.items() for m in (d.get("failure_modes") or {})]
+        other = "gate or operational failure, debris blockage, loadings not listed"
+    else:
+        other = "seismic loading, failure at normal pool, gate or operational failure, debris blockage"
+    flood = " of the flood loading" if loads else ""
+    exposure = summary.get("exposure")
     items = [
         f"Failure modes not modelled are not in these numbers. Modelled: {', '.join(modes) or 'none listed'}. "
-        "Any other mode (for example seismic loading, failure at normal pool, gate or operational failure, "
-        "debris blockage) adds risk the memo does not show.",
-        f"Failure modes are combined as independent, 1 − Π(1 − P_i). If they were fully dependent the AFP would be "
-        f"{fmt_num(b.get('lower_fully_dependent'))} instead of {fmt_num(b.get('upper_independent'))} per year "
-        "(unimodal bounds).",
+        f"Any other mode (for example {other}) adds risk the memo does not show.",
+        f"Failure modes{flood} are combined as independent, 1 − Π(1 − P_i). If they were fully dependent the AFP"
+        f"{flood} would be {fmt_num(b.get('lower_fully_dependent'))} instead of "
+        f"{fmt_num(b.get('upper_independent'))} per year (unimodal bounds)."
+        + (" Loadings are combined as independent too (the bounds are in the headline section)." if loads else ""),
         "Consequences are held fixed in time: population, buildings, warning and evacuation are as in the "
-        "consequence table, not as they may become; they depend on peak stage only, not on duration, velocity, "
-        "season, time of day or breach timing.",
+        "consequence tables, not as they may become; they depend on peak stage only, not on duration, velocity"
+        + (
+            " or breach timing; time of day and warning enter only through the weighted exposure scenarios ("
+            + ", ".join(e["name"] for e in exposure)
+            + ")."
+            if exposure
+            else ", season, time of day or breach timing."
+        ),
         "Life-loss estimates are uncertain by a factor of several even with good data; treat ALL and the F-N "
         "curve as orders of magnitude.",
         (

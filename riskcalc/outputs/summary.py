@@ -48,6 +48,10 @@ def summary_dict(result) -> dict:
         "up to the system value",
     }
     if r.study is not None:
+        out["annual_failure_probability_bounds"]["applies_to"] = (
+            "the flood loading (the total over loadings: total.annual_failure_probability_combination)"
+        )
+    if r.study is not None:
         out["loadings"] = {ld.name: _loading_dict(ld) for ld in r.study.loadings}
         out["total"] = {
             "annual_failure_probability_combination": r.study.afp_combination,

@@ -446,6 +446,8 @@ def assess(
             x_mode, lo_b, hi_b, sc.checks["design_aep"], ens.quantity, sc.credible_level, ens.unit or ""
         )
     )
+    if getattr(sc, "loadings", ()):  # every warning above is about the flood loading
+        warnings = ["flood loading: " + w for w in warnings]
     notes = [curves.mode_note]
     if size.assumes_independent_members:
         notes.append(
