@@ -6,8 +6,8 @@ effective sample size, ``sampler`` the seeded ensemble sampler, ``fit`` puts the
 (:func:`fit_peaks`), and ``plotting`` the plotting positions of the figures.
 """
 
-from .fit import CAUTION_FIT, DEFAULT_DRAWS, DEFAULT_SEED, FitResult, fit_peaks
-from .peaks import MIN_VALUES, PeakRecord, make_record, read_peaks, read_thresholds
+from .fit import CAUTION_FIT, DEFAULT_DRAWS, DEFAULT_SEED, FitResult, fit_from_files, fit_peaks
+from .peaks import MIN_VALUES, PeakRecord, make_record, read_peaks, read_record, read_thresholds
 
 __all__ = [
     "CAUTION_FIT",
@@ -15,6 +15,8 @@ __all__ = [
     "DEFAULT_SEED",
     "FitResult",
     "fit_peaks",
+    "fit_from_files",
+    "read_record",
     "MIN_VALUES",
     "PeakRecord",
     "make_record",

@@ -38,7 +38,7 @@ from scipy import special as sc
 from ..families import SMALL_SHAPE, _pearson3_sf_std
 from .peaks import PeakRecord
 
-__all__ = ["logpdf", "logsf", "logcdf", "log_interval", "log_likelihood", "LOG_FAMILIES"]
+__all__ = ["logpdf", "logsf", "logcdf", "log_cdf_sf", "log_interval", "log_likelihood", "LOG_FAMILIES"]
 
 #: Families whose parameters describe log10 of the quantity.
 LOG_FAMILIES = ("lp3", "lognormal")
@@ -106,9 +106,14 @@ def _gev_y(x, loc, scale, shape):
     """Reduced variate y with F = exp(-exp(-y)); and the in-support mask."""
     s = (x - loc) / scale
     small = np.abs(shape) < SMALL_SHAPE
+    if not small.any():
+        arg = 1.0 - shape * s
+        inside = arg > 0
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return -np.log(np.where(inside, arg, 1.0)) / shape, inside
     ks = np.where(small, 1.0, shape)
     arg = 1.0 - ks * s
-    inside = np.where(small, True, arg > 0)
+    inside = small | (arg > 0)
     with np.errstate(invalid="ignore", divide="ignore"):
         y = np.where(small, s, -np.log(np.where(arg > 0, arg, 1.0)) / ks)
     return y, inside
@@ -214,12 +219,31 @@ def _log_diff(la, lb):
     return np.where(np.isneginf(la), -np.inf, out)
 
 
+def log_cdf_sf(family: str, x, params) -> tuple[np.ndarray, np.ndarray]:
+    """``(logcdf, logsf)`` together, each ``(W, N)`` (the GEV and Gumbel share their reduced variate)."""
+    x = _a(x)
+    if family == "gev":
+        m, a, k = (_a(p) for p in params)
+        y, inside = _gev_y(x, m, a, k)
+        with np.errstate(over="ignore", divide="ignore"):
+            e = np.exp(-y)
+            lc = np.where(inside, -e, np.where(k > 0, 0.0, -np.inf))
+            ls = np.where(inside, np.log(-np.expm1(-e)), np.where(k > 0, -np.inf, 0.0))
+        return lc, ls
+    if family == "gumbel":
+        m, b = (_a(p) for p in params)
+        with np.errstate(over="ignore", divide="ignore"):
+            e = np.exp(-(x - m) / b)
+            return -e, np.log(-np.expm1(-e))
+    return logcdf(family, x, params), logsf(family, x, params)
+
+
 def log_interval(family: str, lower, upper, params) -> np.ndarray:
     """``log[F(upper) - F(lower)]``, ``(W, M)``, from the survival functions in the upper tail and the
     distribution functions in the lower tail (whichever side keeps precision)."""
     lower, upper = _a(lower), _a(upper)
-    sa, sb = logsf(family, lower, params), logsf(family, upper, params)
-    ca, cb = logcdf(family, lower, params), logcdf(family, upper, params)
+    ca, sa = log_cdf_sf(family, lower, params)
+    cb, sb = log_cdf_sf(family, upper, params)
     upper_tail = sa < np.log(0.5)
     return np.where(upper_tail, _log_diff(sa, sb), _log_diff(cb, ca))
 

@@ -42,7 +42,7 @@ import numpy as np
 from ...errors import InputError
 from ...io import read_table, split_unit
 
-__all__ = ["PeakRecord", "read_peaks", "read_thresholds", "make_record", "MIN_VALUES", "QUANTITY_UNITS"]
+__all__ = ["PeakRecord", "read_record", "read_peaks", "read_thresholds", "make_record", "MIN_VALUES", "QUANTITY_UNITS"]
 
 #: Fewest years with a recorded value (exact or interval) a fit accepts.
 MIN_VALUES = 10
@@ -430,3 +430,15 @@ def make_record(peaks: dict, thresholds: dict | None = None, *, positive: bool =
         source=str(path),
         threshold_source=None if thresholds is None else str(thresholds["path"]),
     )
+
+
+def read_record(peaks_path, family: str, *, thresholds=None, sheet=None) -> PeakRecord:
+    """Read and check a peaks table (and a thresholds table) for a fit of ``family``.
+
+    The log families (lp3, lognormal) refuse peaks, upper bounds and thresholds that are not
+    above 0. Every problem is an :class:`~riskcalc.errors.InputError` naming file, row and column.
+    """
+    positive = str(family).strip().lower() in ("lp3", "lognormal")
+    pk = read_peaks(peaks_path, positive=positive, sheet=sheet)
+    th = read_thresholds(thresholds, positive=positive) if thresholds else None
+    return make_record(pk, th, positive=positive)
