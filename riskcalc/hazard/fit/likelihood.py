@@ -267,6 +267,6 @@ def log_likelihood(record: PeakRecord, family: str, params) -> np.ndarray:
         keep = n > 0
         if keep.any():
             lc = logcdf(family, record.thresholds[keep], params)
-            with np.errstate(invalid="ignore"):
+            with np.errstate(invalid="ignore", over="ignore"):
                 total = total + (lc * n[keep]).sum(axis=1)
     return np.where(np.isnan(total), -np.inf, total)
