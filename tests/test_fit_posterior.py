@@ -130,7 +130,7 @@ def test_nile_annual_flow_volumes_gev_and_lp3_mle_against_scipy():
     assert len(data) == 100 and data["year"].iloc[0] == 1871
     x = data["volume"].to_numpy(float)
     rec = exact_record(x)
-    fit = fit_peaks(rec, "gev", draws=400, seed=8, shape_prior="flat")
+    fit = fit_peaks(rec, "gev", draws=400, seed=8, shape_prior="flat", burn=300)  # the MLE needs no long chain
     c, loc, scale = scipy_gev_mle(x)
     ours = stats.genextreme.logpdf(x, fit.mle["shape"], loc=fit.mle["location"], scale=fit.mle["scale"]).sum()
     assert ours >= stats.genextreme.logpdf(x, c, loc=loc, scale=scale).sum() - 1e-6
@@ -139,7 +139,7 @@ def test_nile_annual_flow_volumes_gev_and_lp3_mle_against_scipy():
     np.testing.assert_allclose(list(fit.mode.values()), list(fit.mle.values()), rtol=1e-5)
     y = np.log10(x)
     g, m, s = stats.pearson3.fit(y, stats.skew(y), loc=y.mean(), scale=y.std())
-    lp3 = fit_peaks(rec, "lp3", draws=400, seed=8)
+    lp3 = fit_peaks(rec, "lp3", draws=400, seed=8, burn=300)
     ours = stats.pearson3.logpdf(y, lp3.mle["skew"], loc=lp3.mle["mean"], scale=lp3.mle["sd"]).sum()
     assert ours >= stats.pearson3.logpdf(y, g, loc=m, scale=s).sum() - 1e-6
     np.testing.assert_allclose([lp3.mle["mean"], lp3.mle["sd"], lp3.mle["skew"]], [m, s, g], rtol=2e-3, atol=2e-3)
@@ -190,12 +190,12 @@ def test_lp3_regional_skew_prior_dominates_when_its_mse_is_tiny():
     # with MSE = 1e-4 the posterior of the skew is close to G whatever the station skew
     rng = np.random.default_rng(17)
     x = 10 ** stats.pearson3.rvs(0.8, loc=2.6, scale=0.3, size=40, random_state=rng)
-    fit = fit_peaks(exact_record(x), "lp3", draws=800, seed=4, regional_skew=-0.2, regional_skew_mse=1e-4)
+    fit = fit_peaks(exact_record(x), "lp3", draws=600, seed=4, regional_skew=-0.2, regional_skew_mse=1e-4, burn=500)
     g = fit.draws[:, 2]
     # the posterior sd cannot exceed the prior sd 0.01 by much; its mean lies within a few prior sd of G
     assert abs(g.mean() + 0.2) < 0.03
     assert g.std() < 0.012
-    flat = fit_peaks(exact_record(x), "lp3", draws=400, seed=4)
+    flat = fit_peaks(exact_record(x), "lp3", draws=400, seed=4, burn=300)
     assert flat.mode["skew"] == pytest.approx(flat.mle["skew"], abs=1e-6)
     assert abs(flat.mode["skew"] + 0.2) > 0.3  # the station skew is far from the regional one
 
@@ -236,12 +236,12 @@ def test_censored_mle_against_a_direct_scipy_likelihood():
 
 def test_seeded_and_reproducible():
     x = stats.gumbel_r.rvs(loc=100.0, scale=30.0, size=20, random_state=np.random.default_rng(0))
-    a = fit_peaks(exact_record(x), "gev", draws=200, seed=123)
-    b = fit_peaks(exact_record(x), "gev", draws=200, seed=123)
-    c = fit_peaks(exact_record(x), "gev", draws=200, seed=124)
+    a = fit_peaks(exact_record(x), "gev", draws=400, seed=123, burn=300)
+    b = fit_peaks(exact_record(x), "gev", draws=400, seed=123, burn=300)
+    c = fit_peaks(exact_record(x), "gev", draws=400, seed=124, burn=300)
     assert np.array_equal(a.draws, b.draws) and np.array_equal(a.log_posterior, b.log_posterior)
     assert not np.array_equal(a.draws, c.draws)
-    assert a.size == 200 and sorted(set(a.chain.tolist())) == list(range(a.walkers))
+    assert a.size == 400 and sorted(set(a.chain.tolist())) == list(range(a.walkers))
 
 
 def test_requested_draw_count_is_kept_exactly_and_ordered_by_chain():
