@@ -18,6 +18,7 @@ matplotlib.use("Agg")
 
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
+from matplotlib.ticker import MaxNLocator  # noqa: E402
 
 from .figures import STYLE, _rc, log_axis, paper_x, probability_axis, quantity_label, save  # noqa: E402
 
@@ -34,7 +35,7 @@ _POINTS = {
 _LABELS = {
     "systematic": "recorded peaks (plotting position)",
     "threshold period": "peaks of threshold periods",
-    "interval": "interval years (bar: the interval)",
+    "interval": "interval years (bar: the interval; arrow: no upper bound)",
 }
 
 
@@ -79,6 +80,15 @@ def plot_fit_curves(fit, curves, positions, path_stem=None, *, quantity="dischar
                 upper = np.where(np.isfinite(rows["upper"]), rows["upper"], rows["value"])
                 lower = np.where(lower > 0, lower, rows["value"]) if curves.log_scale else lower
                 ax.vlines(px, lower, upper, color=style["color"], lw=1.2, zorder=5)
+                for xi, v, u in zip(px, rows["value"], rows["upper"]):
+                    if not np.isfinite(u):  # known only to exceed a level: an arrow upwards
+                        ax.annotate(
+                            "",
+                            xy=(xi, v * 1.35 if curves.log_scale else v + 0.1 * abs(v)),
+                            xytext=(xi, v),
+                            arrowprops={"arrowstyle": "->", "color": style["color"], "lw": 1.2},
+                            zorder=5,
+                        )
             ax.plot(px, rows["value"], **style, zorder=6, label=_LABELS[kind])
         for k, ((a, b), t) in enumerate(zip(rec.periods, rec.thresholds)):
             ax.axhline(
@@ -134,6 +144,7 @@ def plot_fit_chains(fit, path_stem=None, *, unit_label=""):
             label = _param_label(fit, name, unit_label)
             at.set_ylabel(label)
             at.set_xlabel("sampler step (each line a walker)")
+            at.xaxis.set_major_locator(MaxNLocator(5))
             at.grid(True, color=STYLE["grid"], lw=0.6)
             v = fit.draws[:, j]
             am.hist(v, bins=50, density=True, color="#9a9a9a", alpha=0.8, label="posterior draws")
@@ -146,7 +157,7 @@ def plot_fit_chains(fit, path_stem=None, *, unit_label=""):
             am.set_xlabel(label)
             am.set_ylabel("density")
             am.grid(True, color=STYLE["grid"], lw=0.6)
-            if j == 0:
+            if j == 0 or prior is not None:
                 am.legend(loc="upper right")
         d = fit.diagnostics()
         fig.suptitle(
