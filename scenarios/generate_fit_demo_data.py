@@ -60,7 +60,9 @@ def main():
     with open(HERE / "peaks.csv", "w", encoding="utf-8", newline="\n") as fh:
         fh.write("# INVENTED DATA for the riskcalc demo: annual peak inflow to Wrenstow Dam on the Fennick River\n")
         fh.write("# (a fictional dam and river) [m3/s]. Systematic gauge 1961-2024; 1987 gauge lost: an interval.\n")
-        fh.write("# 1870-1960: only floods above the perception threshold in thresholds.csv are listed (flood marks).\n")
+        fh.write(
+            "# 1870-1960: only floods above the perception threshold in thresholds.csv are listed (flood marks).\n"
+        )
         fh.write("# A blank peak_upper means no upper bound. Regenerate: python scenarios/generate_fit_demo_data.py\n")
         fh.write("year,peak_m3s,peak_lower_m3s,peak_upper_m3s\n")
         for r in rows:

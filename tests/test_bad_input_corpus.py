@@ -767,7 +767,10 @@ CASES = [
     (
         "hazard-fit-peaks-duplicate-year",
         both(
-            put("peaks.csv", "year,peak_m3s\n" + "".join(f"{1990 + i},{100 + 9 * i}\n" for i in range(12)) + "1995,500\n"),
+            put(
+                "peaks.csv",
+                "year,peak_m3s\n" + "".join(f"{1990 + i},{100 + 9 * i}\n" for i in range(12)) + "1995,500\n",
+            ),
             sub('ensemble = "ensemble.csv"', 'fit = { peaks = "peaks.csv", family = "lp3" }'),
         ),
         r"peaks\.csv, row 14, column 'year': year 1995 appears twice \(also row 7\)",

@@ -145,7 +145,9 @@ def test_other_refusals(tmp_path, capsys):
         assert not (tmp_path / "o").exists()
     interval = tmp_path / "interval.csv"
     interval.write_text(
-        "year,peak,peak_lower,peak_upper\n" + "".join(f"{1990 + i},{300 + i},,\n" for i in range(12)) + "2005,,800,600\n"
+        "year,peak,peak_lower,peak_upper\n"
+        + "".join(f"{1990 + i},{300 + i},,\n" for i in range(12))
+        + "2005,,800,600\n"
     )
     code, _, err = run(["fit", interval, "--family", "gev", "--out", tmp_path / "o"], capsys)
     assert code == 2 and "row 14, column 'peak_upper': the interval [800, 600] is empty" in err

@@ -176,8 +176,12 @@ def test_gev_mode_with_the_geophysical_prior_is_the_penalized_mle():
         return -v if np.isfinite(v) else 1e300
 
     start = [fit.mode["location"] * 1.02, np.log(fit.mode["scale"] * 0.97), 0.0]
-    ref = optimize.minimize(neg, start, method="Nelder-Mead", options={"xatol": 1e-10, "fatol": 1e-12, "maxiter": 20000})
-    ref = optimize.minimize(neg, ref.x, method="Nelder-Mead", options={"xatol": 1e-10, "fatol": 1e-12, "maxiter": 20000})
+    ref = optimize.minimize(
+        neg, start, method="Nelder-Mead", options={"xatol": 1e-10, "fatol": 1e-12, "maxiter": 20000}
+    )
+    ref = optimize.minimize(
+        neg, ref.x, method="Nelder-Mead", options={"xatol": 1e-10, "fatol": 1e-12, "maxiter": 20000}
+    )
     np.testing.assert_allclose(
         [fit.mode["location"], np.log(fit.mode["scale"]), fit.mode["shape"]], ref.x, rtol=1e-4, atol=1e-4
     )
@@ -226,8 +230,9 @@ def test_censored_mle_against_a_direct_scipy_likelihood():
         v = d.logpdf(rec.peaks).sum() + np.log(d.cdf(800.0) - d.cdf(600.0)) + rec.below[0] * d.logcdf(t)
         return -v
 
-    ref = optimize.minimize(neg, [rec.peaks.mean(), np.log(rec.peaks.std())], method="Nelder-Mead",
-                            options={"xatol": 1e-10, "fatol": 1e-12})
+    ref = optimize.minimize(
+        neg, [rec.peaks.mean(), np.log(rec.peaks.std())], method="Nelder-Mead", options={"xatol": 1e-10, "fatol": 1e-12}
+    )
     np.testing.assert_allclose([fit.mle["location"], np.log(fit.mle["scale"])], ref.x, rtol=1e-5, atol=1e-6)
     # the historical information narrows the posterior of the scale against the systematic record alone
     alone = fit_peaks(exact_record(sysx), "gumbel", draws=400, seed=1)

@@ -236,9 +236,7 @@ def read_hazard(d, file, prefix: str = "hazard.") -> tuple:
     hz = validate("hazard", d, file, prefix)
     if "fit" in hz:
         if "ensemble" in hz:
-            raise InputError(
-                "give either an ensemble file or a fit table, not both", file, key=prefix + "ensemble"
-            )
+            raise InputError("give either an ensemble file or a fit table, not both", file, key=prefix + "ensemble")
         hz.setdefault("family", hz["fit"]["family"])
         if hz["family"].strip().lower() != hz["fit"]["family"]:
             raise InputError(

@@ -205,7 +205,9 @@ def _years(table, name, path):
         try:
             v = float(raw)
         except ValueError:
-            raise InputError(f"'{raw[:30]}' is not a year; expected a whole number", path, row=row, column=name) from None
+            raise InputError(
+                f"'{raw[:30]}' is not a year; expected a whole number", path, row=row, column=name
+            ) from None
         if not math.isfinite(v) or v != round(v):
             raise InputError(f"'{raw[:30]}' is not a year; expected a whole number", path, row=row, column=name)
         out[i] = int(v)
@@ -344,9 +346,7 @@ def read_thresholds(path, *, positive: bool = False, sheet=None) -> dict:
         if np.isnan(t[i]):
             raise InputError("empty cell; expected a threshold", path, row=row, column=thr)
         if b[i] < a[i]:
-            raise InputError(
-                f"the period ends in {b[i]}, before it starts in {a[i]}", path, row=row, column="end_year"
-            )
+            raise InputError(f"the period ends in {b[i]}, before it starts in {a[i]}", path, row=row, column="end_year")
     order = np.argsort(a, kind="stable")
     for j, k in zip(order[:-1], order[1:]):
         if a[k] <= b[j]:

@@ -62,6 +62,4 @@ def plotting_positions(record: PeakRecord, *, a: float = 0.0, positive: bool = T
         pe = e / n
         aep[above] = pe * (np.arange(1, e + 1) - a) / (e + 1 - 2 * a)
         aep[~above] = pe + (1 - pe) * (np.arange(1, s + 1) - a) / (s + 1 - 2 * a)
-    return pd.DataFrame(
-        {"year": years, "kind": kind, "value": value, "lower": lower, "upper": upper, "aep": aep}
-    )
+    return pd.DataFrame({"year": years, "kind": kind, "value": value, "lower": lower, "upper": upper, "aep": aep})
