@@ -193,3 +193,23 @@ def test_scenario_with_both_an_ensemble_and_a_fit_is_refused(tmp_path):
     toml.write_text(text.replace('ensemble = "x.csv"\n', "").replace("draws = 400", "draws = 7"))
     with pytest.raises(InputError, match=r"key 'hazard\.fit\.draws': 7 is outside 100 to 1000000"):
         load_scenario(toml)
+
+
+def test_xlsx_record_with_a_unit_suffix_reads_like_the_csv(tmp_path):
+    openpyxl = pytest.importorskip("openpyxl")
+    from riskcalc.hazard.fit import read_record
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.append(["year", "peak_cfs", "peak_lower_cfs", "peak_upper_cfs"])
+    for i in range(11):
+        ws.append([2000 + i, 1000.0 + 37 * i, None, None])
+    ws.append([2011, None, 1500.0, None])
+    wb.save(tmp_path / "peaks.xlsx")
+    rec = read_record(tmp_path / "peaks.xlsx", "lognormal")
+    assert rec.unit == "cfs" and rec.n_exact == 11 and rec.n_interval == 1
+    assert rec.lower[0] == 1500.0 and rec.upper[0] == np.inf
+    ws.append([2012, "high", None, None])
+    wb.save(tmp_path / "bad.xlsx")
+    with pytest.raises(InputError, match=r"bad\.xlsx, row 14, column 'peak_cfs': 'high' is not a number"):
+        read_record(tmp_path / "bad.xlsx", "lognormal")
