@@ -173,6 +173,8 @@ def test_scenario_fit_runs_first_and_is_in_the_provenance(tmp_path):
     for rel, digest in fit["outputs"].items():
         assert hashlib.sha256((out / rel).read_bytes()).hexdigest() == digest
     assert "peaks.csv" in prov["inputs"] and "thresholds.csv" in prov["inputs"]
+    memo = (out / "memo.md").read_text(encoding="utf-8")
+    assert fit["outputs"]["fit/fit.json"] in memo and "seed 5113" in memo  # the memo's provenance shows the fit
     # the run's ensemble is the fit's ensemble.csv
     ens = read_parameter_ensemble(out / "fit" / "ensemble.csv", "gev")
     np.testing.assert_allclose(ens.params["shape"], res.scenario.ensemble.params["shape"], rtol=1e-9)
