@@ -14,6 +14,7 @@ demo: $(BIN)/.installed
 	$(BIN)/riskcalc run scenarios/amberlow_levee/scenario.toml --out out/amberlow_levee --overwrite
 	$(BIN)/riskcalc run scenarios/tarnhollow_dam/scenario.toml --out out/tarnhollow_dam --overwrite
 	$(BIN)/riskcalc run scenarios/amberlow_alternatives/scenario.toml --out out/amberlow_alternatives --overwrite
+	$(BIN)/riskcalc run scenarios/wrenstow_dam_fit/scenario.toml --out out/wrenstow_dam_fit --overwrite
 
 test: $(BIN)/.installed
 	$(BIN)/ruff check .

@@ -36,6 +36,7 @@ __all__ = [
     "memo_workflow",
     "find_chromium",
     "print_pdf",
+    "fit_workflow",
 ]
 
 
@@ -101,13 +102,18 @@ def hazard_step(
     return curves, summary
 
 
-def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity_report=None, comparison=None):
-    """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically."""
+def write_run_outputs(
+    result, out, *, overwrite=False, figures=True, sensitivity_report=None, comparison=None, fit_outputs=None
+):
+    """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically
+    (and, for a scenario whose hazard is fitted, the fit's files into ``out/fit/``)."""
     from .io import write_json
 
     sc = result.scenario
     with atomic_output_dir(out, overwrite=overwrite) as tmp:
         tmp = Path(tmp)
+        if fit_outputs is not None:
+            _write_scenario_fit(sc, tmp / "fit", fit_outputs, figures and sc.outputs.get("figures", True))
         write_json(tmp / "summary.json", result.summary())
         t = tmp / "tables"
         t.mkdir()
@@ -153,6 +159,13 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
     out = _refuse_nonempty(out, overwrite)
     sc = load_scenario(scenario_path)
     result = assess(sc, workers=workers, progress=progress)
+    fit_outputs = scenario_fit_outputs(sc)
+    if fit_outputs is not None:
+        result = dataclasses.replace(
+            result,
+            provenance={**result.provenance, "hazard_fit": fit_outputs["provenance"]},
+            warnings=[*result.warnings, *(f"hazard fit: {w}" for w in sc.hazard_fit.warnings)],
+        )
     report = None
     from .config.settings import sensitivity_enabled
     from .sensitivity.analysis import sensitivity_for_run
@@ -170,9 +183,107 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
         comparison = compare(sc, workers=workers)
         attach_memo_section(result, comparison, figures=figures and sc.outputs.get("figures", True))
     write_run_outputs(
-        result, out, overwrite=overwrite, figures=figures, sensitivity_report=report, comparison=comparison
+        result,
+        out,
+        overwrite=overwrite,
+        figures=figures,
+        sensitivity_report=report,
+        comparison=comparison,
+        fit_outputs=fit_outputs,
     )
     return result
+
+
+# ----------------------------------------------------------------------
+# riskcalc fit, and the fitted hazard of a scenario
+# ----------------------------------------------------------------------
+def fit_workflow(
+    peaks,
+    family,
+    out,
+    *,
+    thresholds=None,
+    draws=None,
+    seed=None,
+    shape_prior="geophysical",
+    regional_skew=None,
+    regional_skew_mse=None,
+    sheet=None,
+    quantity="discharge",
+    overwrite=False,
+    figures=True,
+):
+    """``riskcalc fit``: read and check an annual-peak record, fit a family, write the ensemble and its report.
+
+    Writes ``out/ensemble.csv`` (readable by ``riskcalc hazard --family``), ``out/fit.json``,
+    ``out/plotting_positions.csv`` and ``out/figures/``, atomically; nothing is written when the
+    input is refused.
+
+    Returns
+    -------
+    fit : FitResult
+    curves : HazardCurves
+        The fitted ensemble's curves (AEP 0.995 to 1e-4).
+    """
+    from .hazard.fit import DEFAULT_DRAWS, DEFAULT_SEED, fit_from_files
+    from .outputs.fit_report import fit_display_curves, fit_files, write_fit_outputs
+
+    if quantity not in ("discharge", "stage"):
+        raise InputError(f"--quantity '{quantity}' is not known; expected discharge or stage", key="--quantity")
+    out = _refuse_nonempty(out, overwrite)
+    fit = fit_from_files(
+        peaks,
+        family,
+        thresholds=thresholds,
+        draws=DEFAULT_DRAWS if draws is None else draws,
+        seed=DEFAULT_SEED if seed is None else seed,
+        shape_prior=shape_prior,
+        regional_skew=regional_skew,
+        regional_skew_mse=regional_skew_mse,
+        sheet=sheet,
+    )
+    curves = fit_display_curves(fit, quantity=quantity)
+    files = fit_files(fit, curves)
+    with atomic_output_dir(out, overwrite=overwrite) as tmp:
+        write_fit_outputs(fit, tmp, figures=figures, quantity=quantity, files=files, curves=curves)
+    return fit, curves
+
+
+def scenario_fit_outputs(sc) -> dict | None:
+    """The fit files of a scenario whose ``[hazard]`` has a ``fit`` table, with their provenance; else None."""
+    fit = getattr(sc, "hazard_fit", None)
+    if fit is None:
+        return None
+    import hashlib
+
+    from .outputs.fit_report import fit_display_curves, fit_files
+
+    curves = fit_display_curves(fit, quantity=sc.ensemble.quantity)
+    files = fit_files(fit, curves)
+    prov = {
+        "folder": "fit",
+        "family": fit.family,
+        "seed": fit.seed,
+        "draws": fit.size,
+        "outputs": {f"fit/{k}": hashlib.sha256(v).hexdigest() for k, v in sorted(files.items())},
+        "ess_bulk_min": fit.diagnostics()["ess_bulk_min"],
+        "rank_normalized_split_rhat_max": fit.diagnostics()["rank_normalized_split_rhat_max"],
+        "warnings": list(fit.warnings),
+    }
+    return {"files": files, "curves": curves, "provenance": prov}
+
+
+def _write_scenario_fit(sc, folder, fit_outputs, figures):
+    from .outputs.fit_report import write_fit_outputs
+
+    write_fit_outputs(
+        sc.hazard_fit,
+        folder,
+        figures=figures,
+        quantity=sc.ensemble.quantity,
+        files=fit_outputs["files"],
+        curves=fit_outputs["curves"],
+    )
 
 
 def sensitivity_workflow(

@@ -753,6 +753,33 @@ CASES = [
         append("[uncertainty]\ndraws = 4\n"),
         r"scenario\.toml, key 'uncertainty\.draws': unknown key; expected one of draws_per_realization",
     ),
+    # --- [hazard] fit = {...}: a fitted ensemble (docs/fitting.md) ---------------------------------
+    (
+        "hazard-fit-and-ensemble",
+        sub('ensemble = "ensemble.csv"', 'ensemble = "ensemble.csv"\nfit = { peaks = "peaks.csv", family = "lp3" }'),
+        r"scenario\.toml, key 'hazard\.ensemble': give either an ensemble file or a fit table, not both",
+    ),
+    (
+        "hazard-fit-bad-shape-prior",
+        sub('ensemble = "ensemble.csv"', 'fit = { peaks = "peaks.csv", family = "lp3", shape_prior = "wide" }'),
+        r"scenario\.toml, key 'hazard\.fit\.shape_prior': 'wide' is not geophysical or flat",
+    ),
+    (
+        "hazard-fit-peaks-duplicate-year",
+        both(
+            put(
+                "peaks.csv",
+                "year,peak_m3s\n" + "".join(f"{1990 + i},{100 + 9 * i}\n" for i in range(12)) + "1995,500\n",
+            ),
+            sub('ensemble = "ensemble.csv"', 'fit = { peaks = "peaks.csv", family = "lp3" }'),
+        ),
+        r"peaks\.csv, row 14, column 'year': year 1995 appears twice \(also row 7\)",
+    ),
+    (
+        "hazard-fit-peaks-missing-file",
+        sub('ensemble = "ensemble.csv"', 'fit = { peaks = "gone.csv", family = "lp3" }'),
+        r"gone\.csv: file not found",
+    ),
 ]
 
 

@@ -27,7 +27,7 @@ from ..errors import InputError
 from ..hazard import read_ensemble
 from ..hazard.families import FAMILIES
 from .build import build_model
-from .schema import check_section, validate
+from .schema import SCHEMA, check_section, validate
 
 
 PATH_KEYS = (("hazard", "ensemble"), ("rating", "table"), ("consequences", "table"))
@@ -59,6 +59,12 @@ def _absolutize(d: dict, here: Path):
         s = d.get(sect)
         if isinstance(s, dict) and isinstance(s.get(key), str) and s[key]:
             s[key] = str((here / s[key]).resolve())
+    hz = d.get("hazard")
+    fit = hz.get("fit") if isinstance(hz, dict) else None
+    if isinstance(fit, dict):
+        for key in ("peaks", "thresholds"):
+            if isinstance(fit.get(key), str) and fit[key]:
+                fit[key] = str((here / fit[key]).resolve())
     for fm in d.get("failure_modes", []) or []:
         if isinstance(fm, dict):
             for node in fm.get("nodes", []) or []:
@@ -166,6 +172,8 @@ class Scenario:
         The merged scenario dict with absolute table paths (alternatives merge over it).
     file_hashes : dict
         SHA-256 of every input as read, keyed by relative path.
+    hazard_fit : FitResult or None
+        The frequency fit that made ``ensemble``, when ``[hazard]`` has a ``fit`` table.
     """
 
     path: Path
@@ -191,6 +199,7 @@ class Scenario:
     files: tuple = ()
     raw: dict = field(default_factory=dict)
     file_hashes: dict = field(default_factory=dict)  # SHA-256 of every input as read, keyed by relative path
+    hazard_fit: Any = None  # the FitResult when [hazard] has a fit table
 
     @property
     def variable(self):
@@ -244,6 +253,20 @@ def read_hazard(d, file, prefix: str = "hazard.") -> tuple:
         Explicit mode-curve parameters as floats (empty when none are given).
     """
     hz = validate("hazard", d, file, prefix)
+    if "fit" in hz:
+        if "ensemble" in hz:
+            raise InputError("give either an ensemble file or a fit table, not both", file, key=prefix + "ensemble")
+        hz.setdefault("family", hz["fit"]["family"])
+        if hz["family"].strip().lower() != hz["fit"]["family"]:
+            raise InputError(
+                f"'{hz['family']}' differs from {prefix}fit.family = '{hz['fit']['family']}'; expected the same family",
+                file,
+                key=prefix + "family",
+            )
+    for k in ("family", "ensemble"):
+        if k not in hz and not (k == "ensemble" and "fit" in hz):
+            expect = SCHEMA["hazard"][k].expect
+            raise InputError(f"missing required key; expected {expect}", file, key=prefix + k)
     family = hz["family"].strip().lower()
     if family != "table" and family not in FAMILIES:
         raise InputError(
@@ -269,8 +292,39 @@ def read_hazard(d, file, prefix: str = "hazard.") -> tuple:
     return hz, family, {k: float(v) for k, v in mode.items()}
 
 
-def read_hazard_ensemble(hz: dict, family: str, file, units: dict, prefix: str = "hazard."):
-    """Read the ensemble a validated ``[hazard]`` section names (see :func:`read_hazard`)."""
+def read_hazard_fit(hz: dict, file, units: dict, seed: int, prefix: str = "hazard."):
+    """Run the fit of a validated ``[hazard]`` section's ``fit`` table; returns the ``FitResult``.
+
+    The fit's seed is ``fit.seed``, else the scenario's ``seed``.
+    """
+    from ..hazard.fit import fit_from_files
+
+    f = hz["fit"]
+    unit = units["discharge"] if hz["variable"] == "discharge" else units["stage"]
+    p = prefix + "fit."
+    fit = fit_from_files(
+        f["peaks"],
+        f["family"],
+        thresholds=f.get("thresholds"),
+        draws=f["draws"],
+        seed=seed if f["seed"] is None else f["seed"],
+        shape_prior=f["shape_prior"],
+        regional_skew=f["regional_skew"],
+        regional_skew_mse=f["regional_skew_mse"],
+        where=file,
+        keys={k: p + k for k in ("family", "draws", "shape_prior", "regional_skew", "regional_skew_mse")},
+    )
+    if fit.record.unit is not None and fit.record.unit != unit:
+        raise InputError(
+            f"the peaks are in '{fit.record.unit}' but the scenario's unit is '{unit}'", file, key=p + "peaks"
+        )
+    return fit
+
+
+def read_hazard_ensemble(hz: dict, family: str, file, units: dict, prefix: str = "hazard.", seed: int = 0):
+    """Read the ensemble a validated ``[hazard]`` section names (see :func:`read_hazard`), or fit it."""
+    if "fit" in hz:
+        return read_hazard_fit(hz, file, units, seed, prefix).ensemble(quantity=hz["variable"])
     unit = units["discharge"] if hz["variable"] == "discharge" else units["stage"]
     ens = read_ensemble(hz["ensemble"], family, quantity=hz["variable"], unit=unit)
     if family == "table" and ens.quantity != hz["variable"]:
@@ -323,8 +377,12 @@ def load_scenario(path) -> Scenario:
     guidelines = read_guidelines(top["guidelines"], path) if top["guidelines"] else None
     alternatives = read_alternatives(top["alternatives"], path, unc) if top["alternatives"] else ()
     economics = read_economics(top["economics"], path) if top["economics"] or alternatives else None
-    # the tables
-    ens = read_hazard_ensemble(hz, family, path, units)
+    # the tables (a [hazard] fit table is fitted here, once)
+    hazard_fit = read_hazard_fit(hz, path, units, top["seed"]) if "fit" in hz else None
+    if hazard_fit is not None:
+        ens = hazard_fit.ensemble(quantity=hz["variable"])
+    else:
+        ens = read_hazard_ensemble(hz, family, path, units)
     model = build_model(d, path, units, hz["variable"])
     select_factors(scenario_factors(model), sensitivity, path)
     check_plans(d, path, units, ens, mode, unc["draws_per_realization"], economics, alternatives)
@@ -339,7 +397,10 @@ def load_scenario(path) -> Scenario:
         (ld.name, m) for ld in loadings for m in ld.failure_mode_names
     ]
     individual = read_individual_risk(d, path, all_modes)
-    inputs = [Path(hz["ensemble"])]
+    if hazard_fit is not None:
+        inputs = [Path(hz["fit"]["peaks"])] + ([Path(hz["fit"]["thresholds"])] if "thresholds" in hz["fit"] else [])
+    else:
+        inputs = [Path(hz["ensemble"])]
     if model.rating is not None:
         inputs.append(Path(model.rating.source))
     for m in model.failure_modes:
@@ -375,4 +436,5 @@ def load_scenario(path) -> Scenario:
         files=all_files,
         raw=d,
         file_hashes=_hashes(all_files, path),
+        hazard_fit=hazard_fit,
     )

@@ -165,10 +165,22 @@ SCHEMA: dict[str, dict[str, Field]] = {
     },
     "hazard": {
         "variable": Field(str, "discharge", choices=("discharge", "stage")),
-        "family": Field(str, REQUIRED, expect="a frequency family or table"),
-        "ensemble": Field(str, REQUIRED, nonblank=True, expect=_TABLE_FILE),
+        # family and ensemble are required unless a fit table gives them (checked in config/scenario.py:read_hazard)
+        "family": Field(str, OMIT, expect="a frequency family or table"),
+        "ensemble": Field(str, OMIT, nonblank=True, expect=_TABLE_FILE),
+        "fit": Field(dict, OMIT, table="hazard_fit"),
         "credible_level": Field(float, 0.9, low=0, high=1, low_open=True, high_open=True, expect=_PROB),
         "mode": Field(dict, {}, expect="a table of the family's parameters"),  # keys depend on the family
+    },
+    "hazard_fit": {
+        "peaks": Field(str, REQUIRED, nonblank=True, expect=_TABLE_FILE),
+        "thresholds": Field(str, OMIT, nonblank=True, expect=_TABLE_FILE),
+        "family": Field(str, REQUIRED, choices=("lp3", "gev", "gumbel", "lognormal", "normal")),
+        "draws": Field(int, 4000, low=100, high=1_000_000, expect="a number of posterior draws"),
+        "seed": Field(int, None, low=0, expect="an integer >= 0"),  # default: the scenario's seed
+        "shape_prior": Field(str, "geophysical", choices=("geophysical", "flat")),
+        "regional_skew": Field(float, None, low=-3, high=3, low_open=True, high_open=True, expect="a skew"),
+        "regional_skew_mse": Field(float, None, low=0, low_open=True, expect="a mean squared error > 0"),
     },
     "grid": {
         "points": Field(int, 2000, low=50, high=200_000, expect="a number of grid points"),

@@ -792,6 +792,16 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
     ]
     prow += [(f"setting: {k}", _setting(v)) for k, v in sorted(settings.items())]
     hashes = tuple((str(k), str(v)) for k, v in sorted((prov.get("inputs", {}) or {}).items()))
+    hfit = prov.get("hazard_fit") or {}
+    if hfit:  # the hazard ensemble was fitted by the run (docs/fitting.md): its outputs and seed
+        prow.append(
+            (
+                "hazard fit",
+                f"{hfit.get('family')} fitted to the record, {hfit.get('draws')} draws, "
+                f"seed {hfit.get('seed')}; files in {hfit.get('folder')}/",
+            )
+        )
+        hashes += tuple((str(k), str(v)) for k, v in sorted((hfit.get("outputs") or {}).items()))
     sections.append(
         Section(
             "Provenance",
