@@ -19,13 +19,13 @@ import subprocess
 import tempfile
 from pathlib import Path
 
-import pandas as pd
+from typing import TYPE_CHECKING
 
 from .errors import InputError
-from .hazard import STANDARD_AEPS, hazard_curves, read_ensemble
 from .io import atomic_output_dir, write_csv
-from .outputs.figures import plot_hazard
-from .outputs.tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
+
+if TYPE_CHECKING:  # pandas, the hazard curves and Matplotlib are imported where they are used
+    import pandas as pd
 
 __all__ = [
     "hazard_step",
@@ -70,6 +70,10 @@ def hazard_step(
     summary : pandas.DataFrame
         Mode, median and predictive quantities at the standard AEPs.
     """
+    from .hazard import STANDARD_AEPS, hazard_curves, read_ensemble
+    from .outputs.figures import plot_hazard
+    from .outputs.tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
+
     if quantity not in ("discharge", "stage"):
         raise InputError(f"--quantity '{quantity}' is not known; expected discharge or stage", key="--quantity")
     for name, v in (("aep_max", aep_max), ("aep_min", aep_min)):
@@ -438,6 +442,8 @@ def run_portfolio(paths, out, *, workers=0, scheduler=None, overwrite=False, pro
     progress : callable, optional
         ``progress(done, total)``.
     """
+    import pandas as pd
+
     scenarios = collect_scenarios(paths)
     names = _names(scenarios)
     with atomic_output_dir(out, overwrite=overwrite) as tmp:

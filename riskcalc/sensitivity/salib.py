@@ -84,12 +84,15 @@ import warnings
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
+from typing import TYPE_CHECKING
+
 import numpy as np
-import pandas as pd
-from SALib.analyze import morris as _morris_analyze
-from SALib.analyze import sobol as _sobol_analyze
-from SALib.sample import morris as _morris_sample
-from SALib.sample import sobol as _sobol_sample
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+# pandas and SALib is imported inside the functions that use it, so that reading and checking a scenario (which
+# builds Factor records) does not load it.
 
 __all__ = [
     "KINDS",
@@ -446,6 +449,8 @@ class SobolResult:
 
     def to_frame(self) -> pd.DataFrame:
         """Tidy table, one row per factor: output, factor, S1, S1_conf, ST, ST_conf."""
+        import pandas as pd
+
         return pd.DataFrame(
             {
                 "output": [self.output] * len(self.factors),
@@ -459,6 +464,8 @@ class SobolResult:
 
     def s2_frame(self) -> pd.DataFrame:
         """Tidy table of second-order indices, one row per pair i < j (empty without S2)."""
+        import pandas as pd
+
         cols = ["output", "factor_i", "factor_j", "S2", "S2_conf"]
         if self.S2 is None:
             return pd.DataFrame(columns=cols)
@@ -507,6 +514,8 @@ def _analyze_sobol(prob, name, y, *, n, seed, second_order, n_resamples, conf_le
             note=f"constant output (every run gives {y[0]:.6g}): no variance to apportion, indices undefined",
             **common,
         )
+    from SALib.analyze import sobol as _sobol_analyze
+
     with warnings.catch_warnings():
         # SALib warns once per bootstrap resample that happens to be constant
         # (outputs that are zero in most runs); the point estimates are unaffected.
@@ -595,6 +604,8 @@ def sobol_indices(
     n = _check_power_of_two(n)
     seed = _check_seed(seed)
     conf_level, n_resamples = _check_conf(conf_level, n_resamples)
+    from SALib.sample import sobol as _sobol_sample
+
     prob = problem(factors)
     X = _sobol_sample.sample(prob, n, calc_second_order=bool(second_order), seed=seed)
     Y, is_map = _evaluate(model, X, outputs)
@@ -624,6 +635,8 @@ def _as_results(result) -> list[SobolResult]:
 
 def sobol_frame(result: SobolResult | Mapping[str, SobolResult]) -> pd.DataFrame:
     """One tidy table for one result or a mapping of results (rows stacked by output)."""
+    import pandas as pd
+
     frames = [r.to_frame() for r in _as_results(result)]
     return pd.concat(frames, ignore_index=True)
 
@@ -734,6 +747,8 @@ def sobol_until_converged(
         raise ValueError(f"target_width must be > 0, got {target_width}")
     seed = _check_seed(seed)
     conf_level, n_resamples = _check_conf(conf_level, n_resamples)
+    from SALib.sample import sobol as _sobol_sample
+
     prob = problem(factors)
     so = bool(second_order)
 
@@ -808,6 +823,8 @@ class MorrisResult:
 
     def to_frame(self) -> pd.DataFrame:
         """Tidy table: output, factor, mu, mu_star, mu_star_conf, sigma."""
+        import pandas as pd
+
         return pd.DataFrame(
             {
                 "output": [self.output] * len(self.factors),
@@ -901,6 +918,9 @@ def morris_screening(
             raise ValueError(f"optimal_trajectories must be between 2 and trajectories ({trajectories})")
     seed = _check_seed(seed)
     conf_level, n_resamples = _check_conf(conf_level, n_resamples)
+    from SALib.analyze import morris as _morris_analyze
+    from SALib.sample import morris as _morris_sample
+
     prob = problem(factors)
     X = _morris_sample.sample(
         dict(prob),
