@@ -105,22 +105,41 @@ def hazard_step(
     return curves, summary
 
 
-def write_run_outputs(result, out, *, overwrite=False, figures=True, sensitivity_report=None, comparison=None):
-    """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically."""
+def write_run_outputs(
+    result,
+    out,
+    *,
+    overwrite=False,
+    figures=True,
+    sensitivity_report=None,
+    comparison=None,
+    figure_progress=None,
+    xlsx=False,
+):
+    """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically.
+
+    With ``xlsx`` also ``results.xlsx``, one sheet a table (:func:`riskcalc.outputs.workbook.write_workbook`).
+    """
     from .io import write_json
 
     sc = result.scenario
     with atomic_output_dir(out, overwrite=overwrite) as tmp:
         tmp = Path(tmp)
-        write_json(tmp / "summary.json", result.summary())
+        summary = result.summary()
+        write_json(tmp / "summary.json", summary)
         t = tmp / "tables"
         t.mkdir()
-        for name, df in result.tables().items():
+        tables = result.tables()
+        for name, df in tables.items():
             write_csv(t / f"{name}.csv", df)
+        if xlsx:
+            from .outputs.workbook import write_workbook
+
+            write_workbook(tmp / "results.xlsx", summary, tables)
         if figures and sc.outputs.get("figures", True):
             from .outputs import figures as plots
 
-            plots.run_figures(result, tmp / "figures")
+            plots.run_figures(result, tmp / "figures", progress=figure_progress)
         if sensitivity_report is not None:
             from .outputs.sensitivity import write_sensitivity_outputs
 
@@ -149,8 +168,23 @@ def check_scenario(scenario_path):
     return load_scenario(scenario_path)
 
 
-def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=None, figures=True):
-    """Load, validate and assess a scenario, then write its outputs. Returns the :class:`RiskResult`."""
+def run_scenario(
+    scenario_path,
+    out,
+    *,
+    overwrite=False,
+    workers=None,
+    progress=None,
+    figures=True,
+    sobol_progress=None,
+    figure_progress=None,
+    xlsx=False,
+):
+    """Load, validate and assess a scenario, then write its outputs. Returns the :class:`RiskResult`.
+
+    ``progress``, ``sobol_progress`` and ``figure_progress`` are ``callback(done, total)`` for the Monte
+    Carlo chunks, the Sobol' model runs and the figures; ``xlsx`` also writes ``results.xlsx``.
+    """
     from .risk.assess import assess
     from .config.scenario import load_scenario
 
@@ -162,7 +196,7 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
     from .sensitivity.analysis import sensitivity_for_run
 
     if sensitivity_enabled(sc):
-        report = sensitivity_for_run(sc, result, workers=workers)
+        report = sensitivity_for_run(sc, result, workers=workers, progress=sobol_progress)
         result = dataclasses.replace(
             result, sensitivity=report.summary(), warnings=[*result.warnings, *report.warnings]
         )
@@ -174,7 +208,14 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
         comparison = compare(sc, workers=workers)
         attach_memo_section(result, comparison, figures=figures and sc.outputs.get("figures", True))
     write_run_outputs(
-        result, out, overwrite=overwrite, figures=figures, sensitivity_report=report, comparison=comparison
+        result,
+        out,
+        overwrite=overwrite,
+        figures=figures,
+        sensitivity_report=report,
+        comparison=comparison,
+        figure_progress=figure_progress,
+        xlsx=xlsx,
     )
     return result
 

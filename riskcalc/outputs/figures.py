@@ -863,29 +863,35 @@ def plot_sensitivity(sensitivity, path_stem=None, *, panel_notes=None, top=12):
         return fig if path_stem is None else save(fig, path_stem)
 
 
-def run_figures(result, folder):
+def run_figures(result, folder, *, progress=None):
     """The figures of a risk run (PNG and SVG) into ``folder``; returns the written paths.
 
     Writes the stems of :data:`FIGURE_STEMS` (the sensitivity figure only
     when ``result.sensitivity`` is present). Repeated runs give identical
     files (fixed SVG hash salt, no dates in metadata, seeded subsampling).
+    ``progress(done, total)`` is called after each figure.
     """
     folder = Path(folder)
     sc = result.scenario
-    paths = plot_hazard(
-        result.curves,
-        sc.ensemble,
-        folder / "hazard_ensemble",
-        title=f"{_t(sc.title)}: hazard ensemble ({sc.ensemble.size} realizations)",
-    )
-    paths += plot_aep_distribution(result, folder / "aep_at_design_discharge")
-    paths += plot_response(result, folder / "response_curves")
-    paths += plot_consequences(result, folder / "consequence_curves")
-    paths += plot_risk_distributions(result, folder / "risk_distributions")
-    paths += plot_fn(result, scenario_guidelines(sc), folder / "fn_chart")
-    paths += plot_contributions(result, folder / "risk_by_aep_band")
+    steps = [
+        lambda: plot_hazard(
+            result.curves,
+            sc.ensemble,
+            folder / "hazard_ensemble",
+            title=f"{_t(sc.title)}: hazard ensemble ({sc.ensemble.size} realizations)",
+        ),
+        lambda: plot_aep_distribution(result, folder / "aep_at_design_discharge"),
+        lambda: plot_response(result, folder / "response_curves"),
+        lambda: plot_consequences(result, folder / "consequence_curves"),
+        lambda: plot_risk_distributions(result, folder / "risk_distributions"),
+        lambda: plot_fn(result, scenario_guidelines(sc), folder / "fn_chart"),
+        lambda: plot_contributions(result, folder / "risk_by_aep_band"),
+    ]
     if result.sensitivity:
-        out = plot_sensitivity(result.sensitivity, folder / "sensitivity_indices")
-        if out:
-            paths += out
+        steps.append(lambda: plot_sensitivity(result.sensitivity, folder / "sensitivity_indices"))
+    paths: list = []
+    for i, step in enumerate(steps, start=1):
+        paths += step() or []
+        if progress is not None:
+            progress(i, len(steps))
     return paths
