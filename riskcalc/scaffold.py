@@ -24,7 +24,7 @@ def template_files(structure: str) -> list:
     """The template files of ``structure`` (importlib.resources traversables), sorted by name."""
     if structure not in STRUCTURES:
         raise InputError(f"unknown structure '{structure}'; expected one of {', '.join(STRUCTURES)}", key="--structure")
-    root = resources.files("riskcalc").joinpath("templates", structure)
+    root = resources.files("riskcalc").joinpath("templates").joinpath(structure)
     return sorted((f for f in root.iterdir() if f.is_file()), key=lambda f: f.name)
 
 

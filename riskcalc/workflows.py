@@ -132,10 +132,6 @@ def write_run_outputs(
         tables = result.tables()
         for name, df in tables.items():
             write_csv(t / f"{name}.csv", df)
-        if xlsx:
-            from .outputs.workbook import write_workbook
-
-            write_workbook(tmp / "results.xlsx", summary, tables)
         if figures and sc.outputs.get("figures", True):
             from .outputs import figures as plots
 
@@ -153,6 +149,10 @@ def write_run_outputs(
             from .outputs.memo import write_memo
 
             write_memo(result, tmp)
+        if xlsx:  # last: the sensitivity, comparison and memo steps add tables of their own
+            from .outputs.workbook import workbook_tables, write_workbook
+
+            write_workbook(tmp / "results.xlsx", summary, workbook_tables(tables, t))
     return Path(out)
 
 

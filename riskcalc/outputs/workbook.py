@@ -2,8 +2,9 @@
 
 ``results.xlsx`` holds a ``summary`` sheet (the headline figures, one column a figure with its unit in
 the header, one row a statistic) and one sheet for each tidy table of the run (``per_draw``,
-``fn_curve``, the hazard, response and AEP-band breakdowns), with the same columns and values as the
-CSV files under ``tables/`` (their column names carry the units). A ``read_me`` sheet says what the
+``fn_curve``, the hazard, response and AEP-band breakdowns, and the sensitivity, comparison and
+tolerable-risk tables when the run has them), with the same columns and values as the CSV files under
+``tables/`` (their column names carry the units). A ``read_me`` sheet says what the
 sheets are and carries the caution. Written with openpyxl through pandas; numbers stay numbers.
 """
 
@@ -11,7 +12,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-__all__ = ["SUMMARY_ROWS", "summary_sheet", "write_workbook"]
+__all__ = ["SUMMARY_ROWS", "summary_sheet", "workbook_tables", "write_workbook"]
 
 #: Rows of the summary sheet: (label, how to read the value from a headline entry of summary.json).
 SUMMARY_ROWS = (
@@ -65,6 +66,18 @@ def _sheet_name(name: str, used: set) -> str:
         suffix = f"_{k}"
         out, k = base[: 31 - len(suffix)] + suffix, k + 1
     used.add(out)
+    return out
+
+
+def workbook_tables(tables: dict, folder) -> dict:
+    """The run's tables (DataFrames) followed by every other ``*.csv`` in ``folder`` (sensitivity,
+    comparison, tolerable-risk tables written by later steps), read as the CSV files hold them."""
+    import pandas as pd
+
+    out = dict(tables)
+    for p in sorted(Path(folder).glob("*.csv")):
+        if p.stem not in out:
+            out[p.stem] = pd.read_csv(p)
     return out
 
 
