@@ -42,10 +42,10 @@ def progress_group(*, enabled: bool = True):
 
     A stage's bar appears when its callback is first called (a run without sensitivity shows no Sobol
     bar) and stays until the display closes. Nothing is drawn with ``enabled=False`` or when stderr is
-    not a terminal; the callbacks are then no-ops.
+    not a terminal; ``bar`` then gives None (no callback at all).
     """
     if not _shown(enabled):
-        yield lambda description: lambda done, total=None: None
+        yield lambda description: None
         return
     from rich.console import Console
     from rich.progress import Progress

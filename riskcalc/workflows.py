@@ -135,7 +135,8 @@ def write_run_outputs(
         if figures and sc.outputs.get("figures", True):
             from .outputs import figures as plots
 
-            plots.run_figures(result, tmp / "figures", progress=figure_progress)
+            kw = {"progress": figure_progress} if figure_progress is not None else {}
+            plots.run_figures(result, tmp / "figures", **kw)
         if sensitivity_report is not None:
             from .outputs.sensitivity import write_sensitivity_outputs
 

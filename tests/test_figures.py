@@ -181,3 +181,26 @@ def test_png_files_are_palette_images_small_enough_for_the_memo(bundled):
             assert img.mode == "P"  # adaptive palette of at most 256 colours
     # the memo embeds every PNG in base64 (4/3 of the bytes); seven figures must leave room under 1 MB
     assert sum(p.stat().st_size for p in pngs) * 4 / 3 < 0.6e6
+
+
+def test_run_figures_reports_progress_once_a_figure(bundled, tmp_path):
+    result, _, _ = bundled
+    calls = []
+    paths = plots.run_figures(result, tmp_path, progress=lambda done, total: calls.append((done, total)))
+    n = len(paths) // 2  # a PNG and an SVG a figure
+    assert calls == [(i, n) for i in range(1, n + 1)]
+
+
+def test_progress_group_gives_callbacks_only_when_shown(monkeypatch):
+    import sys
+
+    from riskcalc.progress import progress_group
+
+    with progress_group(enabled=False) as bar:
+        assert bar("figures") is None  # a run then passes no callback at all
+    monkeypatch.setattr(sys.stderr, "isatty", lambda: True, raising=False)
+    with progress_group(enabled=True) as bar:
+        update = bar("figures")
+        assert callable(update)
+        update(1, 3)
+        update(3, 3)
