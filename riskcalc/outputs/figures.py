@@ -273,7 +273,11 @@ def _pow10(x, _pos=None) -> str:
 
 
 def log_axis(ax, which="x"):
-    """Log scale on ``which`` ("x", "y" or "xy") with decade labels 10ⁿ and unlabelled minor ticks."""
+    """Log scale on ``which`` ("x", "y" or "xy") with decade labels 10ⁿ and unlabelled minor ticks at 2 and 5.
+
+    Two minor ticks a decade (not Matplotlib's eight) read as well on a risk chart and leave a quarter of
+    the tick artists to lay out, which is most of the drawing time of a log-log figure.
+    """
     from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
 
     for a in which:
@@ -281,6 +285,7 @@ def log_axis(ax, which="x"):
         (ax.set_xscale if a == "x" else ax.set_yscale)("log")
         axis.set_major_locator(LogLocator(base=10, numticks=12))
         axis.set_major_formatter(FuncFormatter(_pow10))
+        axis.set_minor_locator(LogLocator(base=10, subs=(2.0, 5.0), numticks=12))
         axis.set_minor_formatter(NullFormatter())
 
 
