@@ -188,11 +188,15 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
 
     g = scenario.grid
     points = None
-    if not points_given(scenario):  # the default grid: the smallest accurate one for every plan and year
-        points = max(
-            choose_points(dataclasses.replace(scenario, ensemble=ens, mode_params=mp), tuple(models[y].values()))[0]
-            for y, (ens, mp) in ensembles.items()
-        )
+    if not points_given(scenario):
+        # the default grid: the smallest accurate one for every plan, chosen on the first condition year; the later
+        # years use that size on a grid built from their own ensemble and breakpoints (their accuracy is not
+        # checked separately: one pilot instead of one a year)
+        y0 = next(iter(ensembles))
+        ens0, mp0 = ensembles[y0]
+        points = choose_points(
+            dataclasses.replace(scenario, ensemble=ens0, mode_params=mp0), tuple(models[y0].values())
+        )[0]
     any_knowledge = any(m.has_knowledge_uncertainty for ms in models.values() for m in ms.values())
     k = int(scenario.uncertainty["draws_per_realization"]) if any_knowledge else 1
     grids, modes = {}, {}
