@@ -26,6 +26,7 @@ bench: $(BIN)/.installed
 	$(BIN)/python benchmarks/bench_hazard.py
 	$(BIN)/python benchmarks/bench_chain.py
 	$(BIN)/python benchmarks/bench_sensitivity.py
+	$(BIN)/python benchmarks/bench_run.py
 
 clean:
 	rm -rf $(VENV) out

@@ -18,8 +18,30 @@ __version__ = "0.1.0"
 __all__ = ["__version__", "load_scenario", "assess", "run", "read_ensemble", "hazard_curves", "InputError"]
 
 
-from .risk.assess import assess  # noqa: E402
 from .errors import InputError  # noqa: E402
-from .hazard import hazard_curves, read_ensemble  # noqa: E402
-from .config.scenario import load_scenario  # noqa: E402
-from .workflows import run_scenario as run  # noqa: E402
+
+#: The public names and where they live; imported on first use (PEP 562), so that ``import riskcalc``
+#: (and the command line's ``--help`` and ``check``) does not load scipy's statistics, pandas,
+#: Matplotlib or SALib before they are needed.
+_LAZY = {
+    "assess": ("riskcalc.risk.assess", "assess"),
+    "hazard_curves": ("riskcalc.hazard", "hazard_curves"),
+    "read_ensemble": ("riskcalc.hazard", "read_ensemble"),
+    "load_scenario": ("riskcalc.config.scenario", "load_scenario"),
+    "run": ("riskcalc.workflows", "run_scenario"),
+}
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        module, attr = _LAZY[name]
+        value = getattr(importlib.import_module(module), attr)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'riskcalc' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted([*globals(), *_LAZY])

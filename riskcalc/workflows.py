@@ -19,13 +19,13 @@ import subprocess
 import tempfile
 from pathlib import Path
 
-import pandas as pd
+from typing import TYPE_CHECKING
 
 from .errors import InputError
-from .hazard import STANDARD_AEPS, hazard_curves, read_ensemble
 from .io import atomic_output_dir, write_csv
-from .outputs.figures import plot_hazard
-from .outputs.tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
+
+if TYPE_CHECKING:  # pandas, the hazard curves and Matplotlib are imported where they are used
+    import pandas as pd
 
 __all__ = [
     "hazard_step",
@@ -71,6 +71,10 @@ def hazard_step(
     summary : pandas.DataFrame
         Mode, median and predictive quantities at the standard AEPs.
     """
+    from .hazard import STANDARD_AEPS, hazard_curves, read_ensemble
+    from .outputs.figures import plot_hazard
+    from .outputs.tables import hazard_by_aep, hazard_by_quantity, standard_aep_table
+
     if quantity not in ("discharge", "stage"):
         raise InputError(f"--quantity '{quantity}' is not known; expected discharge or stage", key="--quantity")
     for name, v in (("aep_max", aep_max), ("aep_min", aep_min)):
@@ -103,10 +107,22 @@ def hazard_step(
 
 
 def write_run_outputs(
-    result, out, *, overwrite=False, figures=True, sensitivity_report=None, comparison=None, fit_outputs=None
+    result,
+    out,
+    *,
+    overwrite=False,
+    figures=True,
+    sensitivity_report=None,
+    comparison=None,
+    figure_progress=None,
+    xlsx=False,
+    fit_outputs=None,
 ):
     """Write summary.json, the tables and the figures of a :class:`RiskResult` into ``out`` atomically
-    (and, for a scenario whose hazard is fitted, the fit's files into ``out/fit/``)."""
+    (and, for a scenario whose hazard is fitted, the fit's files into ``out/fit/``).
+
+    With ``xlsx`` also ``results.xlsx``, one sheet a table (:func:`riskcalc.outputs.workbook.write_workbook`).
+    """
     from .io import write_json
 
     sc = result.scenario
@@ -114,15 +130,18 @@ def write_run_outputs(
         tmp = Path(tmp)
         if fit_outputs is not None:
             _write_scenario_fit(sc, tmp / "fit", fit_outputs, figures and sc.outputs.get("figures", True))
-        write_json(tmp / "summary.json", result.summary())
+        summary = result.summary()
+        write_json(tmp / "summary.json", summary)
         t = tmp / "tables"
         t.mkdir()
-        for name, df in result.tables().items():
+        tables = result.tables()
+        for name, df in tables.items():
             write_csv(t / f"{name}.csv", df)
         if figures and sc.outputs.get("figures", True):
             from .outputs import figures as plots
 
-            plots.run_figures(result, tmp / "figures")
+            kw = {"progress": figure_progress} if figure_progress is not None else {}
+            plots.run_figures(result, tmp / "figures", **kw)
         if sensitivity_report is not None:
             from .outputs.sensitivity import write_sensitivity_outputs
 
@@ -136,6 +155,10 @@ def write_run_outputs(
             from .outputs.memo import write_memo
 
             write_memo(result, tmp)
+        if xlsx:  # last: the sensitivity, comparison and memo steps add tables of their own
+            from .outputs.workbook import workbook_tables, write_workbook
+
+            write_workbook(tmp / "results.xlsx", summary, workbook_tables(tables, t))
     return Path(out)
 
 
@@ -151,8 +174,23 @@ def check_scenario(scenario_path):
     return load_scenario(scenario_path)
 
 
-def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=None, figures=True):
-    """Load, validate and assess a scenario, then write its outputs. Returns the :class:`RiskResult`."""
+def run_scenario(
+    scenario_path,
+    out,
+    *,
+    overwrite=False,
+    workers=None,
+    progress=None,
+    figures=True,
+    sobol_progress=None,
+    figure_progress=None,
+    xlsx=False,
+):
+    """Load, validate and assess a scenario, then write its outputs. Returns the :class:`RiskResult`.
+
+    ``progress``, ``sobol_progress`` and ``figure_progress`` are ``callback(done, total)`` for the Monte
+    Carlo chunks, the Sobol' model runs and the figures; ``xlsx`` also writes ``results.xlsx``.
+    """
     from .risk.assess import assess
     from .config.scenario import load_scenario
 
@@ -171,7 +209,7 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
     from .sensitivity.analysis import sensitivity_for_run
 
     if sensitivity_enabled(sc):
-        report = sensitivity_for_run(sc, result, workers=workers)
+        report = sensitivity_for_run(sc, result, workers=workers, progress=sobol_progress)
         result = dataclasses.replace(
             result, sensitivity=report.summary(), warnings=[*result.warnings, *report.warnings]
         )
@@ -190,6 +228,8 @@ def run_scenario(scenario_path, out, *, overwrite=False, workers=None, progress=
         sensitivity_report=report,
         comparison=comparison,
         fit_outputs=fit_outputs,
+        figure_progress=figure_progress,
+        xlsx=xlsx,
     )
     return result
 
@@ -549,6 +589,8 @@ def run_portfolio(paths, out, *, workers=0, scheduler=None, overwrite=False, pro
     progress : callable, optional
         ``progress(done, total)``.
     """
+    import pandas as pd
+
     scenarios = collect_scenarios(paths)
     names = _names(scenarios)
     with atomic_output_dir(out, overwrite=overwrite) as tmp:

@@ -509,7 +509,7 @@ CASES = [
     (
         "scenario-unknown-section-key",
         append("[grid]\npoints = 100\nspacing = 'odd'\n"),
-        r"scenario\.toml, key 'grid\.spacing': unknown key; expected one of aep_max, aep_min, points, rule",
+        r"scenario\.toml, key 'grid\.spacing': unknown key; expected one of aep_max, aep_min, max_points, min_points, points, rule, target_error",
     ),
     (
         "scenario-wrong-type",

@@ -12,7 +12,7 @@ from typer.testing import CliRunner
 import riskcalc.cli as cli
 from riskcalc.cli import app
 
-COMMANDS = ("check", "run", "hazard", "fit", "sensitivity", "compare", "memo", "portfolio")
+COMMANDS = ("new", "check", "run", "hazard", "fit", "sensitivity", "compare", "memo", "portfolio")
 
 
 def _help(*args) -> str:

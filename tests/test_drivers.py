@@ -268,7 +268,7 @@ def test_results_repeat_with_the_seed_and_change_with_another(scenario_factory):
 def test_target_width_doubles_n_and_wide_intervals_warn(scenario_factory):
     path = make(scenario_factory, "conv", modes=ONE_MODE_SHIFT.format(shift=0.3), rating_extra="knowledge_sd = 0.1")
     sc, res = run(path)
-    small = sensitivity_for_run(sc, res, read_settings({"n": 16, "seed": 2}, sc.path))
+    small = sensitivity_for_run(sc, res, read_settings({"n": 16, "seed": 2, "grow": False}, sc.path))
     assert any("exceed 0.1" in w for w in small.warnings)  # 16 base samples: intervals are wide
     rep = sensitivity_for_run(sc, res, read_settings({"n": 32, "seed": 2, "target_width": 0.08}, sc.path))
     ns = [n for n, _ in rep.history]
@@ -426,7 +426,8 @@ def test_cli_end_to_end(scenario_factory, tmp_path, capsys):
     ):
         assert (out / rel).is_file(), rel
     js = json.loads((out / "sensitivity.json").read_text())
-    assert set(js["sobol"]) == set(OUTPUT_KEYS) and js["settings"]["seed"] == 7 and js["settings"]["n"] == 32
+    assert set(js["sobol"]) == set(OUTPUT_KEYS) and js["settings"]["seed"] == 7 and js["settings"]["n_start"] == 32
+    assert js["settings"]["n"] >= 32 and js["settings"]["grow"] is True  # the sample grows from --n
     assert "licensed engineers" in js["caution"]
     # a second run into the same directory needs --overwrite
     assert _main(["sensitivity", path, "--out", out, "--n", 32]) == 2

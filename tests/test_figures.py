@@ -127,3 +127,81 @@ def test_sensitivity_figure_and_dollar_signs_in_labels(tmp_path):
 def test_tick_labels_are_powers_of_ten():
     assert plots._pow10(1e-4) == "10⁻⁴" and plots._pow10(100.0) == "10²" and plots._pow10(1.0) == "1"
     assert plots._pow10(3e-4) == ""  # minor positions stay unlabelled
+
+
+def test_members_are_one_rasterized_collection_with_the_count_in_the_legend(bundled):
+    from matplotlib.collections import LineCollection
+    from matplotlib.lines import Line2D
+
+    result, folder, _ = bundled
+    ens = result.scenario.ensemble
+    fig = plots.plot_hazard(result.curves, ens, max_members=150)
+    ax = fig.axes[0]
+    collections = [c for c in ax.collections if isinstance(c, LineCollection)]
+    assert len(collections) == 1  # every member in one artist
+    lc = collections[0]
+    assert len(lc.get_segments()) == min(150, ens.size) and lc.get_rasterized()
+    assert f"150 of {ens.size:,}" in lc.get_label()
+    # no per-member Line2D: only the predictive, median and mode curves
+    assert len([a for a in ax.get_children() if isinstance(a, Line2D) and a.get_label()[:1] != "_"]) == 3
+    assert any(t.get_text().startswith("ensemble members (150 of") for t in ax.get_legend().get_texts())
+    plt.close(fig)
+    # the dense layers are one embedded image inside the SVG, the rest vector
+    svg = (folder / "hazard_ensemble.svg").read_text()
+    assert svg.count("<image") == 1 and svg.count("<path") > 20
+
+
+def test_histograms_are_one_artist_each(bundled):
+    from matplotlib.patches import Rectangle, StepPatch
+
+    result, _, _ = bundled
+    fig = plots.plot_risk_distributions(result)
+    for ax in fig.axes:
+        assert len([p for p in ax.patches if isinstance(p, StepPatch)]) == 1
+        # the 5-95 % span is the only rectangle (no rectangle a bin)
+        assert len([p for p in ax.patches if type(p) is Rectangle]) <= 1
+    plt.close(fig)
+
+
+def test_fn_cloud_is_rasterized_and_counted(bundled):
+    result, _, _ = bundled
+    fig = plots.plot_fn(result, plots.scenario_guidelines(result.scenario))
+    clouds = [c for c in fig.axes[1].collections if c.get_label().startswith("draws (")]
+    assert len(clouds) == 1 and clouds[0].get_rasterized()
+    assert " of " in clouds[0].get_label()
+    plt.close(fig)
+
+
+def test_png_files_are_palette_images_small_enough_for_the_memo(bundled):
+    from PIL import Image
+
+    _, folder, paths = bundled
+    pngs = [p for p in paths if p.suffix == ".png"]
+    for p in pngs:
+        with Image.open(p) as img:
+            assert img.mode == "P"  # adaptive palette of at most 256 colours
+    # the memo embeds every PNG in base64 (4/3 of the bytes); seven figures must leave room under 1 MB
+    assert sum(p.stat().st_size for p in pngs) * 4 / 3 < 0.6e6
+
+
+def test_run_figures_reports_progress_once_a_figure(bundled, tmp_path):
+    result, _, _ = bundled
+    calls = []
+    paths = plots.run_figures(result, tmp_path, progress=lambda done, total: calls.append((done, total)))
+    n = len(paths) // 2  # a PNG and an SVG a figure
+    assert calls == [(i, n) for i in range(1, n + 1)]
+
+
+def test_progress_group_gives_callbacks_only_when_shown(monkeypatch):
+    import sys
+
+    from riskcalc.progress import progress_group
+
+    with progress_group(enabled=False) as bar:
+        assert bar("figures") is None  # a run then passes no callback at all
+    monkeypatch.setattr(sys.stderr, "isatty", lambda: True, raising=False)
+    with progress_group(enabled=True) as bar:
+        update = bar("figures")
+        assert callable(update)
+        update(1, 3)
+        update(3, 3)

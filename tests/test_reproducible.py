@@ -106,7 +106,7 @@ def test_different_seeds_agree_within_reported_standard_errors(scenario_factory,
 # ----------------------------------------------------------------------
 # atomic outputs
 # ----------------------------------------------------------------------
-def quick_figures(result, folder):
+def quick_figures(result, folder, **_):
     """Stands in for the figures (speed): one small deterministic file."""
     Path(folder).mkdir(parents=True, exist_ok=True)
     (Path(folder) / "stand_in.txt").write_text(f"{result.headline['annual_failure_probability']['predictive']!r}\n")

@@ -36,7 +36,15 @@ def refused(section, table, prefix=None):
 # --------------------------------------------------------------------------
 def test_defaults_are_filled_as_documented():
     # the defaults of docs/scenario-format.md
-    assert S.validate("grid", {}, F, "grid.") == {"points": 2000, "aep_max": 0.999, "aep_min": 1e-7, "rule": "midpoint"}
+    assert S.validate("grid", {}, F, "grid.") == {
+        "points": 2000,
+        "aep_max": 0.999,
+        "aep_min": 1e-7,
+        "rule": "midpoint",
+        "target_error": 1e-3,
+        "min_points": 250,
+        "max_points": 16000,
+    }
     assert S.validate("uncertainty", {}, F) == {"draws_per_realization": 1, "hermite_nodes": 16, "workers": 0}
     assert S.validate("checks", {}, F) == {"design_aep": 0.01, "years": 50, "crest_stage": None}
 
@@ -57,7 +65,12 @@ def test_an_integer_is_a_number_but_true_is_neither():
         ("grid", {"points": 3}, "grid.points", "3 is outside 50 to 200000; expected a number of grid points"),
         ("grid", {"aep_max": 1.0}, "grid.aep_max", "1.0 is outside (0, 1); expected a probability"),
         ("grid", {"rule": "simpson"}, "grid.rule", "'simpson' is not midpoint or trapezoid"),
-        ("grid", {"spacing": "log"}, "grid.spacing", "unknown key; expected one of aep_max, aep_min, points, rule"),
+        (
+            "grid",
+            {"spacing": "log"},
+            "grid.spacing",
+            "unknown key; expected one of aep_max, aep_min, max_points, min_points, points, rule, target_error",
+        ),
         (
             "economics",
             {"rate": 1.0},

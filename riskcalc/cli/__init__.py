@@ -1,6 +1,6 @@
 """The ``riskcalc`` command line: thin wrappers over :mod:`riskcalc.workflows`.
 
-One module a command, named after it (check, run, hazard, fit, sensitivity, compare, memo, portfolio),
+One module a command, named after it (new, check, run, hazard, fit, sensitivity, compare, memo, portfolio),
 each holding one function of that name; this module only assembles them into the app and runs it.
 Bad input prints one line on stderr and exits with status 2.
 
@@ -78,9 +78,9 @@ def _add(module) -> None:
     app.command(name, help=help_text(func.__doc__))(func)
 
 
-from . import check, run, hazard, fit, sensitivity, compare, memo, portfolio  # noqa: E402
+from . import check, run, hazard, fit, sensitivity, compare, memo, portfolio, new  # noqa: E402
 
-for _module in (check, run, hazard, fit, sensitivity, compare, memo, portfolio):
+for _module in (new, check, run, hazard, fit, sensitivity, compare, memo, portfolio):
     _add(_module)
 
 

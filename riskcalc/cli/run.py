@@ -94,12 +94,35 @@ def loading_lines(summary: dict) -> list[str]:
     return lines
 
 
+def accuracy_lines(summary: dict) -> list[str]:
+    """The grid error beside the Monte Carlo standard error of each headline figure (from summary.json)."""
+    g = summary.get("grid_error")
+    if not g:
+        return []
+    parts = []
+    for o in (output_label(k) for k in HEADLINE_KEYS):
+        d = g.get(o.key) or {}
+        mc = d.get("relative_monte_carlo_standard_error")
+        parts.append(
+            f"{o.short} {fmt_percent(d.get('relative_largest', 0.0), sig=2)} (MC {'n/a' if mc is None else fmt_percent(mc, sig=2)})"
+        )
+    how = "chosen adaptively" if g.get("choice") == "adaptive" else "as given"
+    return [
+        f"Accuracy, share of each figure: grid error (Richardson, {g['grid_points']} points {how}) "
+        + ", ".join(parts)
+        + f"; target {fmt_percent(g['target_relative'], sig=2)} of each figure."
+    ]
+
+
 def run(
     scenario: Path = typer.Argument(..., help="Scenario file (.toml)."),
     out: Path = typer.Option(..., "--out", "-o", help="Output directory (created; replaced only with --overwrite)."),
     overwrite: bool = typer.Option(False, help="Replace a non-empty output directory."),
     workers: int = typer.Option(0, help="Threads for the Monte Carlo (0: the machine's cores, at most 4)."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar; print only the output path."),
+    xlsx: bool = typer.Option(
+        False, "--xlsx", help="Also write results.xlsx: one sheet a table (summary, per draw, F-N, breakdowns)."
+    ),
 ):
     """Run the whole risk chain on a scenario: AFP, EAD, ALL, F-N, mean versus mode.
 
@@ -112,17 +135,28 @@ def run(
     the Sobol indices (as `riskcalc sensitivity`); one with [[alternatives]] and [economics] also gets
     the comparison (as `riskcalc compare`) and its memo section.
     """
-    from ..progress import progress_bar
+    from ..progress import progress_group
     from ..workflows import run_scenario
 
-    with progress_bar("Monte Carlo chunks", enabled=not quiet) as update:
-        result = run_scenario(scenario, out, overwrite=overwrite, workers=workers or None, progress=update)
+    with progress_group(enabled=not quiet) as bar:
+        result = run_scenario(
+            scenario,
+            out,
+            overwrite=overwrite,
+            workers=workers or None,
+            progress=bar("Monte Carlo chunks"),
+            sobol_progress=bar("Sobol model runs"),
+            figure_progress=bar("figures"),
+            xlsx=xlsx,
+        )
     s = result.summary()
     if not quiet:
         from ..decision.reference_checks import reference_checks, summary_line
 
         typer.echo(s["title"])
         for line in headline_lines(s):
+            typer.echo(line)
+        for line in accuracy_lines(s):
             typer.echo(line)
         typer.echo(summary_line(s.get("reference_lines") or reference_checks(result)))
         for w in s["warnings"]:

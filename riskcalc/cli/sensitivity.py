@@ -12,11 +12,16 @@ from ..outputs.labels import caution_line, fmt_ratio, output_label
 def sensitivity(
     scenario: Path = typer.Argument(..., help="Scenario file (.toml)."),
     out: Path = typer.Option(..., "--out", "-o", help="Output directory (created; replaced only with --overwrite)."),
-    n: int = typer.Option(None, "--n", help="Base sample size N, a power of two (default: [sensitivity].n or 1024)."),
+    n: int = typer.Option(
+        None,
+        "--n",
+        help="First base sample size N, a power of two (default: [sensitivity].n or 1024); it doubles until every "
+        "half-width is below the target unless [sensitivity].grow = false.",
+    ),
     seed: int = typer.Option(None, "--seed", help="Positive seed (default: [sensitivity].seed or the scenario's)."),
     second_order: bool = typer.Option(False, "--second-order", help="Also estimate second-order indices."),
     target_width: float = typer.Option(
-        None, "--target-width", help="Double N until every interval half-width is below this (e.g. 0.05)."
+        None, "--target-width", help="Double N until every interval half-width is below this (default 0.1, e.g. 0.05)."
     ),
     morris: bool = typer.Option(False, "--morris", help="Also run Morris screening."),
     overwrite: bool = typer.Option(False, help="Replace a non-empty output directory."),

@@ -187,6 +187,12 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "aep_max": Field(float, 0.999, low=0, high=1, low_open=True, high_open=True, expect=_PROB),
         "aep_min": Field(float, 1e-7, low=0, high=1, low_open=True, high_open=True, expect=_PROB),
         "rule": Field(str, "midpoint", choices=("midpoint", "trapezoid")),
+        # without `points` the grid is chosen adaptively (riskcalc.risk.grid_error.choose_points)
+        "target_error": Field(
+            float, 1e-3, low=0, high=0.1, low_open=True, expect="a share of each headline figure in (0, 0.1]"
+        ),
+        "min_points": Field(int, 250, low=50, high=200_000, expect="a number of grid points"),
+        "max_points": Field(int, 16_000, low=50, high=200_000, expect="a number of grid points"),
     },
     "rating": {
         "table": Field(str, REQUIRED, nonblank=True, expect=_TABLE_FILE),
@@ -344,6 +350,13 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "morris_trajectories": Field(int, 20, low=4, high=1000, expect="an integer from 4 to 1000"),
         "morris_levels": Field(int, 4, low=2, high=20, even=True, expect="an even integer from 2 to 20"),
         "gap_samples": Field(int, 1024, low=64, high=65536, pow2=True, expect="a power of two from 64 to 65536"),
+        # grow n in powers of two until every half-width is below target_width (default 0.1) or n_max
+        "grow": Field(bool, True),
+        "estimator": Field(str, "janon", choices=("janon", "saltelli")),
+        # Sobol on the grid of every second node when its grid error is below this share of each headline
+        "grid_target_error": Field(
+            float, 0.01, low=0, high=0.1, low_open=True, expect="a share of each headline figure in (0, 0.1]"
+        ),
     },
     # -- [guidelines] (list entries are numbered from 0) ---------------------------------------------
     "guidelines": {

@@ -28,6 +28,20 @@ class SensitivitySettings:
     morris_trajectories: int = 20
     morris_levels: int = 4
     gap_samples: int = 1024
+    grow: bool = True
+    estimator: str = "janon"
+    grid_target_error: float = 0.01
+
+    @property
+    def target(self) -> float | None:
+        """The half-width the sample grows to: ``target_width``, else the warning level when ``grow``."""
+        if self.target_width is not None:
+            return self.target_width
+        if self.grow:
+            from ..sensitivity.salib import WIDE_INTERVAL
+
+            return WIDE_INTERVAL
+        return None
 
 
 def settings_table(s: SensitivitySettings) -> dict:
@@ -66,9 +80,13 @@ def read_settings(raw, file=None, *, default_seed: int = 1, factors=None, overri
 
     Keys
     ----
-    enabled (false), n (1024), seed, second_order (false), target_width (none: no doubling),
-    n_max (16384, or n when larger), n_resamples (100), conf_level (0.95), groups ({}), include ([]),
-    exclude ([]), morris (false), morris_trajectories (20), morris_levels (4), gap_samples (1024).
+    enabled (false), n (1024: the first sample size), seed, second_order (false), target_width (none:
+    the warning level 0.1 when ``grow``), n_max (16384, or n when larger), n_resamples (100),
+    conf_level (0.95), groups ({}), include ([]), exclude ([]), morris (false), morris_trajectories (20),
+    morris_levels (4), gap_samples (1024), grow (true: double n until every confidence half-width is
+    below the target or n reaches n_max; false with no target_width: one sample of size n),
+    estimator ("janon" or "saltelli"), grid_target_error (0.01: the indices are computed on the grid of
+    every second node when its grid error is below this share of every headline figure).
 
     Raises
     ------

@@ -184,13 +184,25 @@ def evaluate_plans(scenario, models: dict, ensembles: dict, *, workers=None) -> 
     random streams (``SeedSequence(seed).spawn``) line up across plans and
     years.
     """
+    from ..risk.grid_error import choose_points, points_given
+
     g = scenario.grid
+    points = None
+    if not points_given(scenario):
+        # the default grid: the smallest accurate one for every plan, chosen on the first condition year; the later
+        # years use that size on a grid built from their own ensemble and breakpoints (their accuracy is not
+        # checked separately: one pilot instead of one a year)
+        y0 = next(iter(ensembles))
+        ens0, mp0 = ensembles[y0]
+        points = choose_points(
+            dataclasses.replace(scenario, ensemble=ens0, mode_params=mp0), tuple(models[y0].values())
+        )[0]
     any_knowledge = any(m.has_knowledge_uncertainty for ms in models.values() for m in ms.values())
     k = int(scenario.uncertainty["draws_per_realization"]) if any_knowledge else 1
     grids, modes = {}, {}
     for year, (ens, mode_params) in ensembles.items():
         mode_one, _ = mode_curve(ens, mode_params or None)
-        grid = build_grid(ens, tuple(models[year].values()), g, mode_params)
+        grid = build_grid(ens, tuple(models[year].values()), g, mode_params, points=points)
         grids[year] = grid
         modes[year] = cell_masses(mode_one.aep(grid)[0])
     rows = min(chunk_rows_for(m, grids[y].size) for y, ms in models.items() for m in ms.values())

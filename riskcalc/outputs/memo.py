@@ -592,6 +592,41 @@ def mode_words(notes) -> str:
     return "the mode curve"
 
 
+def grid_error_blocks(summary: dict) -> list:
+    """A paragraph on accuracy: each headline figure's grid error beside its Monte Carlo standard error."""
+    g = summary.get("grid_error")
+    if not g:
+        return []
+    parts = []
+    mc_larger = True
+    for key in HEADLINE_KEYS:
+        d = g.get(key) or {}
+        mc = d.get("relative_monte_carlo_standard_error")
+        mc_larger = mc_larger and mc is not None and mc > d.get("relative_largest", 0.0)
+        parts.append(
+            f"{output_label(key).short} {fmt_percent(d.get('relative_largest', 0.0), sig=2)} "
+            f"(Monte Carlo standard error {'not available' if mc is None else fmt_percent(mc, sig=2)})"
+        )
+    how = (
+        "chosen as the smallest grid whose estimated error is below the target"
+        if g.get("choice") == "adaptive"
+        else "as the scenario gives it"
+    )
+    return [
+        Block(
+            "p",
+            f"Accuracy of the integrals: the grid of {g['grid_points']} points ({how}) has an estimated grid "
+            f"error, as a share of each figure, of {'; '.join(parts)}; target {fmt_percent(g['target_relative'], sig=2)}. "
+            "The grid error is a Richardson estimate from the same integrals on every second grid point. "
+            + (
+                "For every figure the Monte Carlo error of the ensemble and the response draws is the larger."
+                if mc_larger
+                else "For some figure the grid error is not small beside the Monte Carlo error: refine the grid."
+            ),
+        )
+    ]
+
+
 def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) -> tuple[str, str, list]:
     """The memo's title, subtitle and sections from the run's files (see :func:`rebuild_memo`)."""
     prov = summary.get("provenance", {}) or {}
@@ -713,6 +748,7 @@ def memo_sections(summary: dict, tolerable: list[dict], images: dict, extra=()) 
                 f"({fmt_percent(se / afp['predictive'], decimals=1)} of the value).",
             )
         )
+    blocks += grid_error_blocks(summary)
     sections.append(Section("Headline results", "headline", tuple(blocks), new_page=False))
 
     # 2. figures -------------------------------------------------------------

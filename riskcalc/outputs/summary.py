@@ -65,6 +65,8 @@ def summary_dict(result) -> dict:
     from ..decision.reference_checks import reference_checks
 
     out["reference_lines"] = reference_checks(r)
+    if r.extras.get("grid_error") is not None:  # the grid's discretization error beside the Monte Carlo error
+        out["grid_error"] = r.extras["grid_error"].as_dict()
     out["truncation"] = r.truncation.as_dict()
     out["extrapolation"] = r.extrapolation.as_dict()
     out["sensitivity"] = r.sensitivity

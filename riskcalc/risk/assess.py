@@ -73,6 +73,8 @@ def build_grid(ens, chains, grid_settings, mode_params=None, points=None):
         cover the grid.
     """
     g = grid_settings
+    if g.get("min_points", 0) > g.get("max_points", np.inf):
+        raise InputError(f"{g['max_points']} is below grid.min_points = {g['min_points']}", key="grid.max_points")
     mode_one, _ = mode_curve(ens, mode_params or None)
     bps = np.concatenate([_grid_breakpoints(m, ens.quantity) for m in chains])
     try:
@@ -370,12 +372,17 @@ def assess(
     -------
     RiskResult
     """
+    from . import grid_error as ge
+
     sc = scenario
     ens, chain = sc.ensemble, sc.model
+    nw = workers or sc.uncertainty.get("workers") or default_workers()
+    choice, tried = ("given", ()) if grid_points or ge.points_given(sc) else ("adaptive", None)
+    if tried is None:
+        grid_points, tried = ge.choose_points(sc, workers=nw)
     grid = build_grid(ens, (chain,), sc.grid, sc.mode_params, points=int(grid_points or sc.grid["points"]))
     rule, log_spacing = sc.grid["rule"], ens.log_scale
     k = int(draws_per_realization or sc.uncertainty["draws_per_realization"]) if chain.has_knowledge_uncertainty else 1
-    nw = workers or sc.uncertainty.get("workers") or default_workers()
     on_mid = chain.on(evaluation_points(grid, log_spacing, "midpoint"))
     if fn_levels_override is not None:
         levels = np.asarray(fn_levels_override, float)
@@ -420,6 +427,20 @@ def assess(
         prop, chain, grid, ens.quantity, v_nominal, sc.units.get("stage", ""), sc.units.get("discharge", "")
     )
     size = ensemble_size(ens, prop)
+    grid_err = ge.with_monte_carlo(
+        ge.estimate(
+            chain,
+            grid,
+            {"predictive": prop.aep_predictive, "mode": curves.aep_mode, "median_curve": curves.aep_median},
+            rule=rule,
+            log_spacing=log_spacing,
+            seed=sc.seed or 1,
+            target=float(sc.grid.get("target_error") or ge.TARGET),
+            choice=choice,
+            tried=tried,
+        ),
+        headline,
+    )
     crest_stage = None
     if sc.checks.get("crest_stage") is not None:
         crest_stage = crest_stage_check(ens, chain, curves, sc.checks["crest_stage"], sc.checks["years"])
@@ -445,6 +466,7 @@ def assess(
         + dg.mode_outside_band_warnings(
             x_mode, lo_b, hi_b, sc.checks["design_aep"], ens.quantity, sc.credible_level, ens.unit or ""
         )
+        + ge.grid_error_warnings(grid_err)
     )
     if getattr(sc, "loadings", ()):  # every warning above is about the flood loading
         warnings = ["flood loading: " + w for w in warnings]
@@ -505,6 +527,7 @@ def assess(
         notes=notes,
         crest_stage=crest_stage,
         provenance=_provenance(sc, grid, rule, k, ens, chain),
+        extras={"grid_error": grid_err},
     )
     if getattr(sc, "loadings", ()) or getattr(sc, "individual_risk", ()):
         import dataclasses

@@ -121,7 +121,15 @@ class SensitivityReport:
                 "target_width": s.target_width,
                 "n_max": s.n_max,
                 "groups": {g: list(m) for g, m in s.groups},
-                "estimators": "Saltelli et al. (2010) first order, Jansen total order (SALib)",
+                "estimators": (
+                    "Janon et al. (2014) first order and total (one minus the closed index of the others) on "
+                    "Saltelli's design (SALib sampling)"
+                    if s.estimator == "janon"
+                    else "Saltelli et al. (2010) first order, Jansen total order (SALib)"
+                ),
+                "estimator": s.estimator,
+                "grow": s.grow,
+                "target": s.target,
             },
             "convergence": {
                 "converged": self.converged,
@@ -159,8 +167,25 @@ def _interval_warnings(results, limit=WIDE_INTERVAL):
     return msgs
 
 
+def _coarse_ok(result, settings) -> bool:
+    """True when the grid of every second node is accurate enough for the indices: its grid error, 2^p times
+    the run's (the error of a rule of order p scales with h^p), is below ``settings.grid_target_error``."""
+    from ..risk.grid_error import ORDER
+
+    err = (getattr(result, "extras", None) or {}).get("grid_error")
+    if err is None or result.grid.size < 2 * 50:
+        return False
+    return 2.0**ORDER * err.largest_relative <= settings.grid_target_error
+
+
 def sensitivity_for_run(
-    scenario, result, settings: SensitivitySettings | None = None, *, workers=None, driver: RiskDriver | None = None
+    scenario,
+    result,
+    settings: SensitivitySettings | None = None,
+    *,
+    workers=None,
+    driver: RiskDriver | None = None,
+    progress=None,
 ) -> SensitivityReport:
     """Sobol' indices of AFP, EAD and ALL (and the gap by source) for a finished run.
 
@@ -178,6 +203,8 @@ def sensitivity_for_run(
     workers : int, optional
     driver : RiskDriver, optional
         A driver already built on ``result`` (saves the precomputation).
+    progress : callable, optional
+        ``progress(model runs done, model runs at n_max)`` while the Sobol' sample grows.
 
     Returns
     -------
@@ -193,23 +220,29 @@ def sensitivity_for_run(
     if settings is None:
         settings = read_settings(scenario.sensitivity, scenario.path, default_seed=scenario.seed)
     factors = select_factors(all_factors, settings, scenario.path)
-    drv = driver if driver is not None else driver_for_result(result, workers=workers)
+    drv = (
+        driver
+        if driver is not None
+        else driver_for_result(result, workers=workers, coarse=_coarse_ok(result, settings))
+    )
     t1 = time.perf_counter()
     model = drv.unit_model(factors)
     sal = [f.salib_factor() for f in factors]
     notes, warns = [], []
     try:
-        if settings.target_width is not None:
+        if settings.target is not None:
             conv = sobol_until_converged(
                 model,
                 sal,
                 n_start=settings.n,
-                target_width=settings.target_width,
+                target_width=settings.target,
                 n_max=settings.n_max,
                 seed=settings.seed,
                 second_order=settings.second_order,
                 n_resamples=settings.n_resamples,
                 conf_level=settings.conf_level,
+                estimator=settings.estimator,
+                progress=progress,
             )
             sobol, n, converged, history = conv.result, conv.n, conv.converged, conv.history
             if not converged:
@@ -223,6 +256,7 @@ def sensitivity_for_run(
                 second_order=settings.second_order,
                 n_resamples=settings.n_resamples,
                 conf_level=settings.conf_level,
+                estimator=settings.estimator,
             )
             n, converged = settings.n, None
             history = ((n, {k: max_conf_width(r) for k, r in sobol.items()}),)
@@ -250,6 +284,11 @@ def sensitivity_for_run(
     )
     notes.append("natural variability of stage (aleatory) is integrated in every sample and is not a factor")
     t4 = time.perf_counter()
+    if drv.grid.size < result.grid.size:
+        notes.append(
+            f"indices computed on the grid of every second node ({drv.grid.size} of {result.grid.size} points), "
+            f"whose grid error is below {100 * settings.grid_target_error:g} % of every headline figure"
+        )
     prov = {
         "seed": settings.seed,
         "realizations": drv.size,

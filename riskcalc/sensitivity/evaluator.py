@@ -214,9 +214,16 @@ def build_driver(
     )
 
 
-def driver_for_result(result, *, workers=None) -> RiskDriver:
-    """A :class:`RiskDriver` on the grid and settings of a finished run."""
+def driver_for_result(result, *, workers=None, coarse=False) -> RiskDriver:
+    """A :class:`RiskDriver` on the grid and settings of a finished run.
+
+    With ``coarse`` the driver uses the run's grid of every second node (the grid the run's grid-error
+    estimate compares with, :func:`riskcalc.risk.grid_error.coarse_nodes`): half the work per sample.
+    """
+    from ..risk.grid_error import coarse_nodes
+
     sc_ = result.scenario
+    grid = result.grid[coarse_nodes(result.grid.size)] if coarse else result.grid
     return build_driver(
-        sc_.ensemble, sc_.model, result.grid, rule=sc_.grid["rule"], log_spacing=sc_.ensemble.log_scale, workers=workers
+        sc_.ensemble, sc_.model, grid, rule=sc_.grid["rule"], log_spacing=sc_.ensemble.log_scale, workers=workers
     )

@@ -64,7 +64,10 @@ def gap_by_source(result, driver: RiskDriver, factors=None, *, seed: int = 1, sa
     factors = scenario_factors(driver.chain) if factors is None else tuple(factors)
     head = result.headline
     units = _units(result.scenario.units.get("currency", "usd"))
-    m_mode = point_masses(cell_masses(result.curves.aep_mode), driver.rule)[None, :]
+    aep_mode = result.curves.aep_mode
+    if driver.grid.size != result.grid.size:  # a driver on the grid of every second node (a subset of the run's)
+        aep_mode = result.curves.mode.aep(driver.grid)[0]
+    m_mode = point_masses(cell_masses(aep_mode), driver.rule)[None, :]
     rows = []
     mode_vals = {k: head[k]["mode"] for k in OUTPUT_KEYS}
     pred = {"hazard": {k: head[k]["predictive_nominal_response"] for k in OUTPUT_KEYS}}
