@@ -537,3 +537,22 @@ def test_warnings_of_a_study_name_the_flood_loading(tmp_path):
     r = assess(load_scenario(path))
     assert all(w.startswith("flood loading: ") for w in r.warnings)
     assert r.summary()["annual_failure_probability_bounds"]["applies_to"].startswith("the flood loading")
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_rating_interpolant_equals_scipy_pchip(seed):
+    """riskcalc's own monotone cubic (no scipy.interpolate import at check time) equals
+    scipy.interpolate.PchipInterpolator (Fritsch & Carlson 1980; Fritsch & Butland 1984) on random tables,
+    monotone and not."""
+    from scipy.interpolate import PchipInterpolator
+
+    from riskcalc.response.rating import hermite_cubic, pchip_derivatives
+
+    rng = np.random.default_rng(seed)
+    for n in (2, 3, 5, 9):
+        x = np.sort(rng.uniform(0, 5, n)) + np.arange(n) * 1e-3
+        y = np.cumsum(rng.uniform(0.01, 2, n)) if seed % 2 else rng.normal(size=n)
+        xq = np.linspace(x[0], x[-1], 400)
+        np.testing.assert_allclose(
+            hermite_cubic(x, y, pchip_derivatives(x, y), xq), PchipInterpolator(x, y)(xq), rtol=0, atol=1e-12
+        )

@@ -108,7 +108,8 @@ def accuracy_lines(summary: dict) -> list[str]:
         )
     how = "chosen adaptively" if g.get("choice") == "adaptive" else "as given"
     return [
-        f"Accuracy, share of each figure: grid error (Richardson, {g['grid_points']} points {how}) "
+        ("Accuracy of the flood loading, share" if summary.get("loadings") else "Accuracy, share")
+        + f" of each figure: grid error (Richardson, {g['grid_points']} points {how}) "
         + ", ".join(parts)
         + f"; target {fmt_percent(g['target_relative'], sig=2)} of each figure."
     ]

@@ -615,13 +615,20 @@ def grid_error_blocks(summary: dict) -> list:
     return [
         Block(
             "p",
-            f"Accuracy of the integrals: the grid of {g['grid_points']} points ({how}) has an estimated grid "
+            ("Accuracy of the flood loading's integrals" if summary.get("loadings") else "Accuracy of the integrals")
+            + f": the grid of {g['grid_points']} points ({how}) has an estimated grid "
             f"error, as a share of each figure, of {'; '.join(parts)}; target {fmt_percent(g['target_relative'], sig=2)}. "
             "The grid error is a Richardson estimate from the same integrals on every second grid point. "
             + (
                 "For every figure the Monte Carlo error of the ensemble and the response draws is the larger."
                 if mc_larger
                 else "For some figure the grid error is not small beside the Monte Carlo error: refine the grid."
+            )
+            + (
+                " The seismic ground-motion integrals use their own log-spaced grid (hazard.points); their grid "
+                "error is not estimated."
+                if any(d.get("kind") == "seismic" for d in (summary.get("loadings") or {}).values())
+                else ""
             ),
         )
     ]

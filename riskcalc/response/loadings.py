@@ -31,7 +31,7 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 from .consequences import ConsequenceCurves
 
@@ -112,6 +112,8 @@ class AnnualProbability:
         if d == "lognormal":
             return np.minimum(self.median * np.exp(self.beta * special.ndtri(u)), 1.0)
         if d == "triangular":
+            from scipy import stats
+
             c = (self.mode - self.low) / (self.high - self.low)
             return stats.triang(c, loc=self.low, scale=self.high - self.low).ppf(u)
         return np.exp(np.log(self.low) + u * (np.log(self.high) - np.log(self.low)))

@@ -29,7 +29,6 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 __all__ = [
     "TARGETS",
@@ -237,6 +236,46 @@ class UncertainInputs:
 
 
 # --------------------------------------------------------------------------
+# Frozen distributions, built when first used
+# --------------------------------------------------------------------------
+class LazyDistribution:
+    """A frozen ``scipy.stats`` distribution, built on first use.
+
+    Importing ``scipy.stats`` takes about 0.4 s, which ``riskcalc check`` and ``--help`` need not pay;
+    every attribute (``rvs``, ``ppf``, ``support``, ``mean``, ``args``, ...) is the frozen distribution's.
+    """
+
+    __slots__ = ("_name", "_args", "_kwds", "_dist")
+
+    def __init__(self, name: str, *args, **kwds):
+        self._name, self._args, self._kwds, self._dist = name, args, kwds, None
+
+    def frozen(self):
+        """The frozen ``scipy.stats`` distribution itself."""
+        if self._dist is None:
+            from scipy import stats
+
+            self._dist = getattr(stats, self._name)(*self._args, **self._kwds)
+        return self._dist
+
+    def __getattr__(self, attr):
+        if attr.startswith("__"):
+            raise AttributeError(attr)
+        return getattr(self.frozen(), attr)
+
+    def __reduce__(self):
+        return (_rebuild_lazy, (self._name, self._args, self._kwds))
+
+    def __repr__(self):
+        args = ", ".join([*(repr(a) for a in self._args), *(f"{k}={v!r}" for k, v in self._kwds.items())])
+        return f"{self._name}({args})"
+
+
+def _rebuild_lazy(name, args, kwds):
+    return LazyDistribution(name, *args, **kwds)
+
+
+# --------------------------------------------------------------------------
 # The kinds of uncertain input a scenario declares: one builder each
 # --------------------------------------------------------------------------
 def rating_offset(sd: float) -> UncertainParameter:
@@ -245,7 +284,7 @@ def rating_offset(sd: float) -> UncertainParameter:
         "rating_offset",
         "rating",
         "stage_offset",
-        stats.norm(0.0, sd),
+        LazyDistribution("norm", 0.0, sd),
         0.0,
         description=f"stage offset of the rating, normal(0, {sd:g}) [stage units]",
         units="stage units",
@@ -258,7 +297,7 @@ def fragility_shift(index: int, name: str, sd: float) -> UncertainParameter:
         f"fragility_shift:{name}",
         "fragility",
         "fm_shift",
-        stats.norm(0.0, sd),
+        LazyDistribution("norm", 0.0, sd),
         0.0,
         failure_mode=index,
         description=f"shift of '{name}' along stage, normal(0, {sd:g}) [stage units]",
@@ -272,7 +311,7 @@ def fragility_spread(index: int, name: str, low: float, high: float) -> Uncertai
         f"fragility_spread:{name}",
         "fragility",
         "fm_spread",
-        stats.uniform(low, high - low),
+        LazyDistribution("uniform", low, high - low),
         1.0,
         failure_mode=index,
         description=f"spread factor of '{name}', uniform({low:g}, {high:g}) [-]",
@@ -292,7 +331,7 @@ def consequence_factor(
     words = name.replace("_", " ")
     if distribution == "triangular":
         c = (mode - low) / (high - low)
-        dist = stats.triang(c, loc=low, scale=high - low)
+        dist = LazyDistribution("triang", c, loc=low, scale=high - low)
         return UncertainParameter(
             name,
             "consequences",
@@ -307,7 +346,7 @@ def consequence_factor(
             name,
             "consequences",
             target,
-            stats.lognorm(beta, scale=median),
+            LazyDistribution("lognorm", beta, scale=median),
             float(median),
             description=f"{words}, lognormal(median {median:g}, beta {beta:g}) [-]",
             units="-",
