@@ -169,6 +169,24 @@ def members_collection(ax, xs, ens, aeps, *, max_members=150, seed=1):
     return lc
 
 
+def draw_summary_curves(ax, curves, xs, zorder=3):
+    """The credible band and the predictive, median and mode curves on probability paper (x = ``xs``)."""
+    lo, hi = curves.band_names
+    ax.fill_between(
+        xs,
+        curves.quantity_lower,
+        curves.quantity_upper,
+        color=STYLE["band"]["color"],
+        alpha=STYLE["band"]["alpha"],
+        lw=0,
+        zorder=zorder,
+        label=f"{round(100 * curves.level)} % credible band ({lo}–{hi})",
+    )
+    ax.plot(xs, curves.quantity_predictive, **STYLE["predictive"], label="predictive (mean AEP)", zorder=zorder + 2)
+    ax.plot(xs, curves.quantity_median, **STYLE["median"], label="median curve", zorder=zorder + 2)
+    ax.plot(xs, curves.quantity_mode, **STYLE["mode"], label="mode curve", zorder=zorder + 2)
+
+
 def plot_hazard(curves, ens=None, path_stem=None, *, title="Hazard ensemble", max_members=150, seed=1):
     """The ensemble on probability paper with predictive, mode and median curves and the credible band.
 
@@ -185,20 +203,7 @@ def plot_hazard(curves, ens=None, path_stem=None, *, title="Hazard ensemble", ma
         xs = paper_x(curves.aeps)
         if ens is not None:
             members_collection(ax, xs, ens, curves.aeps, max_members=max_members, seed=seed)
-        lo, hi = curves.band_names
-        ax.fill_between(
-            xs,
-            curves.quantity_lower,
-            curves.quantity_upper,
-            color=STYLE["band"]["color"],
-            alpha=STYLE["band"]["alpha"],
-            lw=0,
-            zorder=3,
-            label=f"{round(100 * curves.level)} % credible band ({lo}–{hi})",
-        )
-        ax.plot(xs, curves.quantity_predictive, **STYLE["predictive"], label="predictive (mean AEP)", zorder=5)
-        ax.plot(xs, curves.quantity_median, **STYLE["median"], label="median curve", zorder=5)
-        ax.plot(xs, curves.quantity_mode, **STYLE["mode"], label="mode curve", zorder=5)
+        draw_summary_curves(ax, curves, xs, zorder=3)
         if curves.log_scale:
             log_axis(ax, "y")
         probability_axis(ax, curves.aeps.min(), curves.aeps.max())

@@ -20,7 +20,7 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 from matplotlib.ticker import MaxNLocator  # noqa: E402
 
-from .figures import STYLE, _rc, log_axis, paper_x, probability_axis, quantity_label, save  # noqa: E402
+from .figures import STYLE, _rc, draw_summary_curves, log_axis, paper_x, probability_axis, quantity_label, save  # noqa: E402
 
 __all__ = ["plot_fit_curves", "plot_fit_chains", "fit_figures", "FIT_FIGURE_STEMS"]
 
@@ -56,20 +56,7 @@ def plot_fit_curves(fit, curves, positions, path_stem=None, *, quantity="dischar
     with plt.rc_context(_rc()):
         fig, ax = plt.subplots(figsize=(7.0, 4.8))
         xs = paper_x(curves.aeps)
-        lo, hi = curves.band_names
-        ax.fill_between(
-            xs,
-            curves.quantity_lower,
-            curves.quantity_upper,
-            color=STYLE["band"]["color"],
-            alpha=STYLE["band"]["alpha"],
-            lw=0,
-            zorder=2,
-            label=f"{round(100 * curves.level)} % credible band ({lo}–{hi})",
-        )
-        ax.plot(xs, curves.quantity_predictive, **STYLE["predictive"], label="predictive (mean AEP)", zorder=4)
-        ax.plot(xs, curves.quantity_mode, **STYLE["mode"], label="mode curve", zorder=4)
-        ax.plot(xs, curves.quantity_median, **STYLE["median"], label="median curve", zorder=4)
+        draw_summary_curves(ax, curves, xs, zorder=2)
         for kind, style in _POINTS.items():
             rows = positions[positions["kind"] == kind]
             if rows.empty:
