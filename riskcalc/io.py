@@ -111,6 +111,37 @@ class Table:
             out[i] = v
         return out
 
+    def stage_column(self, *, what="table", stage_unit=None) -> str:
+        """The ``stage[_unit]`` column, its unit checked against the scenario's; refuses a table without one."""
+        found = None
+        for c in self.columns:
+            s = split_unit(c, ("stage",))
+            if s is None:
+                continue
+            if s[1] is not None and stage_unit is not None and s[1] != stage_unit:
+                raise InputError(
+                    f"unit '{s[1]}' does not match the scenario's stage unit '{stage_unit}'",
+                    self.path,
+                    row=self.header_row,
+                    column=c,
+                )
+            found = c
+        if found is None:
+            raise InputError(f"missing column 'stage' in the {what}", self.path, row=self.header_row)
+        return found
+
+    def require_increasing(self, column: str, values, *, label="stage", what="table") -> None:
+        """Refuse the first row whose value is not above the previous row's."""
+        for i in range(1, len(values)):
+            if not values[i] > values[i - 1]:
+                raise InputError(
+                    f"{label} {values[i]:g} is not above the previous row's {values[i - 1]:g}; the {what} must "
+                    "increase",
+                    self.path,
+                    row=self.rows[i],
+                    column=column,
+                )
+
     def require(self, required, optional=(), *, what="table", allow_extra=False):
         """Refuse missing or unknown columns, and duplicated ones."""
         seen = set()

@@ -84,24 +84,13 @@ def _probability(a, file, key) -> AnnualProbability:
 
 def _fragility_table(path, units, file, key):
     """A seismic fragility table: stage_<unit>, median, beta (median and β against pool level)."""
-    t = read_table(path, what="seismic fragility table")
-    st = [c for c in t.columns if c == "stage" or c.startswith("stage_")]
-    if not st:
-        raise InputError("missing column 'stage_<unit>' in the seismic fragility table", t.path, row=t.header_row)
-    unit = st[0][len("stage_") :] if st[0] != "stage" else None
-    if unit and unit != units["stage"]:
-        raise InputError(
-            f"unit '{unit}' does not match the scenario's stage unit '{units['stage']}'",
-            t.path,
-            row=t.header_row,
-            column=st[0],
-        )
+    what = "seismic fragility table"
+    t = read_table(path, what=what)
+    sc = t.stage_column(what=what, stage_unit=units["stage"])
     med_col = [c for c in t.columns if c == "median" or c.startswith("median_")]
-    t.require((st[0], med_col[0] if med_col else "median", "beta"), what="seismic fragility table")
-    h = t.numbers(st[0], what="a reservoir level")
-    for i in range(1, len(h)):
-        if not h[i] > h[i - 1]:
-            raise InputError("stages must increase", t.path, row=t.rows[i], column=st[0])
+    t.require((sc, med_col[0] if med_col else "median", "beta"), what=what)
+    h = t.numbers(sc, what="a reservoir level")
+    t.require_increasing(sc, h, what=what)
     med = t.numbers(med_col[0], positive=True, what="a median ground motion > 0")
     beta = t.numbers("beta", positive=True, what="a logarithmic standard deviation > 0")
     return h, med, beta

@@ -189,18 +189,7 @@ def read_pool_duration(path, bins: int, stage_unit: str | None = None) -> PoolLe
         last other than 0, a stage unit that is not the scenario's.
     """
     t = read_table(path, what="pool-duration table")
-    st = [c for c in t.columns if c == "stage" or c.startswith("stage_")]
-    if not st:
-        raise InputError("missing column 'stage_<unit>' in the pool-duration table", t.path, row=t.header_row)
-    sc = st[0]
-    unit = sc[len("stage_") :] if sc != "stage" else None
-    if unit and stage_unit and unit != stage_unit:
-        raise InputError(
-            f"unit '{unit}' does not match the scenario's stage unit '{stage_unit}'",
-            t.path,
-            row=t.header_row,
-            column=sc,
-        )
+    sc = t.stage_column(what="pool-duration table", stage_unit=stage_unit)
     t.require((sc, "fraction_exceeded"), what="pool-duration table")
     h = t.numbers(sc, what="a reservoir level")
     f = t.numbers("fraction_exceeded", lo=0.0, hi=1.0, what="a fraction of time in [0, 1]")

@@ -228,14 +228,7 @@ def read_consequence_table(path, *, stage_unit=None, currency=None, what="conseq
             row=table.header_row,
         )
     h = table.numbers(cols["stage"])
-    for i in range(1, len(h)):
-        if not h[i] > h[i - 1]:
-            raise InputError(
-                f"stage {h[i]:g} is not above the previous row's {h[i - 1]:g}; the {what} must increase",
-                table.path,
-                row=table.rows[i],
-                column=cols["stage"],
-            )
+    table.require_increasing(cols["stage"], h, what=what)
     vals = {}
     for name in ("damage_breach", "damage_no_breach", "life_loss_breach", "life_loss_no_breach", "population_at_risk"):
         if name in cols:

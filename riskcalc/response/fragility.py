@@ -21,7 +21,7 @@ import numpy as np
 from scipy import special as sc
 
 from ..errors import InputError
-from ..io import read_table, split_unit
+from ..io import read_table
 
 __all__ = ["FragilityCurve", "FailureMode", "combine_independent", "read_fragility_table", "FRAGILITY_KINDS"]
 
@@ -145,20 +145,7 @@ def combine_independent(p_modes) -> np.ndarray:
 def read_fragility_table(path, *, stage_unit=None, name="fragility", what="fragility table") -> FragilityCurve:
     """Read a (stage, probability) table: columns ``stage[_unit]`` and ``probability``."""
     table = read_table(path, what=what)
-    scol = None
-    for c in table.columns:
-        s = split_unit(c, ("stage",))
-        if s is not None:
-            if s[1] is not None and stage_unit is not None and s[1] != stage_unit:
-                raise InputError(
-                    f"unit '{s[1]}' does not match the scenario's stage unit '{stage_unit}'",
-                    table.path,
-                    row=table.header_row,
-                    column=c,
-                )
-            scol = c
-    if scol is None:
-        raise InputError(f"missing column 'stage' in the {what}", table.path, row=table.header_row)
+    scol = table.stage_column(what=what, stage_unit=stage_unit)
     table.require((scol, "probability"), what=what)
     h = table.numbers(scol)
     p = table.numbers("probability", lo=0.0, hi=1.0, what="a probability in [0, 1]")

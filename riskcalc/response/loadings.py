@@ -139,8 +139,18 @@ class StaticFailureMode:
     consequences: ConsequenceCurves | None = None
 
 
+class _Modes:
+    """The failure-mode names of a loading with ``failure_modes``."""
+
+    failure_modes: tuple
+
+    @property
+    def failure_mode_names(self) -> tuple:
+        return tuple(m.name for m in self.failure_modes)
+
+
 @dataclass(frozen=True, eq=False)
-class SeismicLoading:
+class SeismicLoading(_Modes):
     """An earthquake loading: hazard curves, pool levels, failure modes and consequences."""
 
     name: str
@@ -152,13 +162,9 @@ class SeismicLoading:
     draws: int = 0
     kind: str = "seismic"
 
-    @property
-    def failure_mode_names(self) -> tuple:
-        return tuple(m.name for m in self.failure_modes)
-
 
 @dataclass(frozen=True, eq=False)
-class StaticLoading:
+class StaticLoading(_Modes):
     """Normal operation: failure modes with annual probabilities, at pool levels."""
 
     name: str
@@ -167,10 +173,6 @@ class StaticLoading:
     consequences: ConsequenceCurves
     draws: int = 0
     kind: str = "static"
-
-    @property
-    def failure_mode_names(self) -> tuple:
-        return tuple(m.name for m in self.failure_modes)
 
 
 @dataclass(frozen=True, eq=False)

@@ -604,8 +604,9 @@ def combine_loadings(loadings, seed) -> StudyResult:
         for m in ("predictive", "mode", "median_curve", "nominal_response")
     }
     heads = {}
+    own = [ld.headline() for ld in loadings]
     for key, n, _ in HEADLINES:
-        per = [ld.headline()[key] for ld in loadings]
+        per = [h[key] for h in own]
         q = weighted_quantile(draws[n], W, [0.05, 0.5, 0.95])[:, 0]
         pv, mv, pn = tot["predictive"][n], tot["mode"][n], tot["nominal_response"][n]
         heads[key] = Headline(
